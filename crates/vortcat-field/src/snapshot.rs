@@ -1,0 +1,411 @@
+//! Snapshots: the velocity components on a [`Grid`] with a validity mask, and their identifier.
+
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+use ndarray::{Array2, Array3, Zip};
+use serde::{Deserialize, Serialize};
+
+use crate::error::FieldError;
+use crate::grid::Grid;
+
+/// Stable identifier of one snapshot: the file it came from and its index in that file's stack
+/// (0 for a file holding a single snapshot). Displayed as `path#index`.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
+pub struct SnapshotId {
+    /// The file (or, for a folder of per-component `.npy` files, the folder).
+    pub source: PathBuf,
+    /// Index along the stack's time axis.
+    pub index: usize,
+}
+
+impl SnapshotId {
+    /// A new identifier.
+    pub fn new(source: impl Into<PathBuf>, index: usize) -> Self {
+        Self {
+            source: source.into(),
+            index,
+        }
+    }
+
+    /// The source path.
+    pub fn path(&self) -> &Path {
+        &self.source
+    }
+}
+
+impl fmt::Display for SnapshotId {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}#{}", self.source.display(), self.index)
+    }
+}
+
+/// Velocity on a plane: in-plane components `u` (along x) and `v` (along y), optionally the
+/// out-of-plane component `w`, all indexed `[iy, ix]`.
+///
+/// Invalid vectors (NaN in the input, or flagged by the acquisition software) have
+/// `valid[[iy, ix]] == false` and NaN in every component, so that a computation that forgets the
+/// mask produces NaN rather than a plausible wrong number.
+#[derive(Debug, Clone)]
+pub struct PlaneField {
+    grid: Grid,
+    u: Array2<f64>,
+    v: Array2<f64>,
+    w: Option<Array2<f64>>,
+    valid: Array2<bool>,
+}
+
+impl PlaneField {
+    /// Builds a plane field, checking shapes against the grid and deriving the validity mask from
+    /// NaN values and the optional `flagged` array (`true` = rejected vector).
+    ///
+    /// Errors: a grid that is not a plane, a component whose shape differs from the grid's, an
+    /// infinite value (never a legitimate mask marker, so a sign of a corrupt file), or a field
+    /// with no valid vector at all.
+    pub fn new(
+        grid: Grid,
+        mut u: Array2<f64>,
+        mut v: Array2<f64>,
+        mut w: Option<Array2<f64>>,
+        flagged: Option<&Array2<bool>>,
+    ) -> Result<Self, FieldError> {
+        if grid.ndim() != 2 {
+            return Err(FieldError::WrongDimension {
+                expected: 2,
+                found: grid.ndim(),
+            });
+        }
+        let shape = grid.shape();
+        let check = |name: &str, s: &[usize]| -> Result<(), FieldError> {
+            if s != shape.as_slice() {
+                Err(FieldError::ShapeMismatch {
+                    what: name.to_string(),
+                    expected: shape.clone(),
+                    found: s.to_vec(),
+                })
+            } else {
+                Ok(())
+            }
+        };
+        check("u", u.shape())?;
+        check("v", v.shape())?;
+        if let Some(w) = &w {
+            check("w", w.shape())?;
+        }
+        if let Some(f) = flagged {
+            check("mask", f.shape())?;
+        }
+        for (name, a) in [("u", &u), ("v", &v)]
+            .into_iter()
+            .chain(w.as_ref().map(|w| ("w", w)))
+        {
+            let infinite = a.iter().filter(|x| x.is_infinite()).count();
+            if infinite > 0 {
+                return Err(FieldError::NonFinite {
+                    component: name.to_string(),
+                    count: infinite,
+                });
+            }
+        }
+        let mut valid = Array2::from_elem(u.raw_dim(), true);
+        Zip::from(&mut valid)
+            .and(&u)
+            .and(&v)
+            .for_each(|ok, &a, &b| *ok = !a.is_nan() && !b.is_nan());
+        if let Some(w) = &w {
+            Zip::from(&mut valid)
+                .and(w)
+                .for_each(|ok, &c| *ok &= !c.is_nan());
+        }
+        if let Some(f) = flagged {
+            Zip::from(&mut valid)
+                .and(f)
+                .for_each(|ok, &bad| *ok &= !bad);
+        }
+        if !valid.iter().any(|&ok| ok) {
+            return Err(FieldError::NoValidVectors);
+        }
+        let blank = |a: &mut Array2<f64>| {
+            Zip::from(a).and(&valid).for_each(|x, &ok| {
+                if !ok {
+                    *x = f64::NAN
+                }
+            })
+        };
+        blank(&mut u);
+        blank(&mut v);
+        if let Some(w) = w.as_mut() {
+            blank(w);
+        }
+        Ok(Self {
+            grid,
+            u,
+            v,
+            w,
+            valid,
+        })
+    }
+
+    /// The grid.
+    pub fn grid(&self) -> &Grid {
+        &self.grid
+    }
+    /// x-component, `[iy, ix]`; NaN where invalid.
+    pub fn u(&self) -> &Array2<f64> {
+        &self.u
+    }
+    /// y-component, `[iy, ix]`; NaN where invalid.
+    pub fn v(&self) -> &Array2<f64> {
+        &self.v
+    }
+    /// Out-of-plane component, if the input had one (stereo PIV).
+    pub fn w(&self) -> Option<&Array2<f64>> {
+        self.w.as_ref()
+    }
+    /// `true` where the vector is valid.
+    pub fn valid(&self) -> &Array2<bool> {
+        &self.valid
+    }
+    /// Fraction of invalid vectors, 0..=1.
+    pub fn invalid_fraction(&self) -> f64 {
+        let bad = self.valid.iter().filter(|&&ok| !ok).count();
+        bad as f64 / self.valid.len() as f64
+    }
+}
+
+/// Velocity on a volume, indexed `[iz, iy, ix]`.
+///
+/// Stored in `f32`: DNS dumps are written in single precision, and a 512³ volume of three `f64`
+/// components would take 3.2 GB before any work. Derivative code promotes to `f64` per point.
+/// Invalid points follow the same convention as [`PlaneField`].
+#[derive(Debug, Clone)]
+pub struct VolumeField {
+    grid: Grid,
+    u: Array3<f32>,
+    v: Array3<f32>,
+    w: Array3<f32>,
+    valid: Array3<bool>,
+}
+
+impl VolumeField {
+    /// Builds a volume field; the same checks as [`PlaneField::new`].
+    pub fn new(
+        grid: Grid,
+        mut u: Array3<f32>,
+        mut v: Array3<f32>,
+        mut w: Array3<f32>,
+        flagged: Option<&Array3<bool>>,
+    ) -> Result<Self, FieldError> {
+        if grid.ndim() != 3 {
+            return Err(FieldError::WrongDimension {
+                expected: 3,
+                found: grid.ndim(),
+            });
+        }
+        let shape = grid.shape();
+        for (name, s) in [("u", u.shape()), ("v", v.shape()), ("w", w.shape())]
+            .into_iter()
+            .chain(flagged.map(|f| ("mask", f.shape())))
+        {
+            if s != shape.as_slice() {
+                return Err(FieldError::ShapeMismatch {
+                    what: name.to_string(),
+                    expected: shape.clone(),
+                    found: s.to_vec(),
+                });
+            }
+        }
+        for (name, a) in [("u", &u), ("v", &v), ("w", &w)] {
+            let infinite = a.iter().filter(|x| x.is_infinite()).count();
+            if infinite > 0 {
+                return Err(FieldError::NonFinite {
+                    component: name.to_string(),
+                    count: infinite,
+                });
+            }
+        }
+        let mut valid = Array3::from_elem(u.raw_dim(), true);
+        Zip::from(&mut valid)
+            .and(&u)
+            .and(&v)
+            .and(&w)
+            .for_each(|ok, &a, &b, &c| *ok = !(a.is_nan() || b.is_nan() || c.is_nan()));
+        if let Some(f) = flagged {
+            Zip::from(&mut valid)
+                .and(f)
+                .for_each(|ok, &bad| *ok &= !bad);
+        }
+        if !valid.iter().any(|&ok| ok) {
+            return Err(FieldError::NoValidVectors);
+        }
+        for a in [&mut u, &mut v, &mut w] {
+            Zip::from(a).and(&valid).for_each(|x, &ok| {
+                if !ok {
+                    *x = f32::NAN
+                }
+            });
+        }
+        Ok(Self {
+            grid,
+            u,
+            v,
+            w,
+            valid,
+        })
+    }
+
+    /// The grid.
+    pub fn grid(&self) -> &Grid {
+        &self.grid
+    }
+    /// x-component, `[iz, iy, ix]`.
+    pub fn u(&self) -> &Array3<f32> {
+        &self.u
+    }
+    /// y-component.
+    pub fn v(&self) -> &Array3<f32> {
+        &self.v
+    }
+    /// z-component.
+    pub fn w(&self) -> &Array3<f32> {
+        &self.w
+    }
+    /// `true` where the vector is valid.
+    pub fn valid(&self) -> &Array3<bool> {
+        &self.valid
+    }
+    /// Fraction of invalid vectors, 0..=1.
+    pub fn invalid_fraction(&self) -> f64 {
+        let bad = self.valid.iter().filter(|&&ok| !ok).count();
+        bad as f64 / self.valid.len() as f64
+    }
+}
+
+/// A plane or a volume.
+#[derive(Debug, Clone)]
+pub enum Field {
+    /// A 2D field (planar or stereo PIV, a DNS plane).
+    Plane(PlaneField),
+    /// A 3D field (tomographic PIV, a DNS dump).
+    Volume(VolumeField),
+}
+
+impl Field {
+    /// The grid of either kind.
+    pub fn grid(&self) -> &Grid {
+        match self {
+            Field::Plane(p) => p.grid(),
+            Field::Volume(v) => v.grid(),
+        }
+    }
+
+    /// Fraction of invalid vectors.
+    pub fn invalid_fraction(&self) -> f64 {
+        match self {
+            Field::Plane(p) => p.invalid_fraction(),
+            Field::Volume(v) => v.invalid_fraction(),
+        }
+    }
+
+    /// Smallest and largest speed |u| over valid vectors.
+    pub fn speed_range(&self) -> (f64, f64) {
+        let mut lo = f64::INFINITY;
+        let mut hi = 0.0_f64;
+        let mut visit = |s: f64| {
+            lo = lo.min(s);
+            hi = hi.max(s);
+        };
+        match self {
+            Field::Plane(p) => {
+                for (idx, &ok) in p.valid.indexed_iter() {
+                    if ok {
+                        let c = p.w.as_ref().map_or(0.0, |w| w[idx]);
+                        let (a, b) = (p.u[idx], p.v[idx]);
+                        visit((a * a + b * b + c * c).sqrt());
+                    }
+                }
+            }
+            Field::Volume(v) => {
+                for (((&a, &b), &c), &ok) in
+                    v.u.iter()
+                        .zip(v.v.iter())
+                        .zip(v.w.iter())
+                        .zip(v.valid.iter())
+                {
+                    if ok {
+                        let (a, b, c) = (a as f64, b as f64, c as f64);
+                        visit((a * a + b * b + c * c).sqrt());
+                    }
+                }
+            }
+        }
+        (lo, hi)
+    }
+}
+
+/// One snapshot: where it came from and its field.
+#[derive(Debug, Clone)]
+pub struct Snapshot {
+    /// Stable identifier.
+    pub id: SnapshotId,
+    /// Time of the snapshot in the source's time unit, when the source records one.
+    pub time: Option<f64>,
+    /// The velocity field.
+    pub field: Field,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::grid::{Axis, Units};
+    use ndarray::array;
+
+    fn grid(nx: usize, ny: usize) -> Grid {
+        Grid::plane(
+            Axis::new("x", nx, 0.0, 1.0).unwrap(),
+            Axis::new("y", ny, 0.0, 1.0).unwrap(),
+            Units::default(),
+        )
+    }
+
+    #[test]
+    fn nan_and_flags_make_invalid_vectors() {
+        let u = array![[1.0, f64::NAN, 1.0], [1.0, 1.0, 1.0]];
+        let v = array![[0.0, 0.0, 0.0], [0.0, 0.0, 0.0]];
+        let flagged = array![[false, false, false], [false, false, true]];
+        let f = PlaneField::new(grid(3, 2), u, v.clone(), None, Some(&flagged)).unwrap();
+        assert_eq!(f.valid(), &array![[true, false, true], [true, true, false]]);
+        // Flagged vectors are blanked in every component.
+        assert!(f.v()[[1, 2]].is_nan());
+        assert!((f.invalid_fraction() - 2.0 / 6.0).abs() < 1e-15);
+    }
+
+    #[test]
+    fn shape_mismatch_names_the_component() {
+        let u = Array2::<f64>::zeros((2, 3));
+        let v = Array2::<f64>::zeros((3, 2));
+        let err = PlaneField::new(grid(3, 2), u, v, None, None).unwrap_err();
+        assert!(err.to_string().contains('v'), "{err}");
+    }
+
+    #[test]
+    fn all_nan_and_infinite_fields_are_errors() {
+        let u = Array2::from_elem((2, 2), f64::NAN);
+        let v = Array2::<f64>::zeros((2, 2));
+        assert!(matches!(
+            PlaneField::new(grid(2, 2), u, v.clone(), None, None),
+            Err(FieldError::NoValidVectors)
+        ));
+        let mut u = Array2::<f64>::zeros((2, 2));
+        u[[0, 1]] = f64::INFINITY;
+        assert!(matches!(
+            PlaneField::new(grid(2, 2), u, v, None, None),
+            Err(FieldError::NonFinite { .. })
+        ));
+    }
+
+    #[test]
+    fn snapshot_id_display() {
+        assert_eq!(SnapshotId::new("run/a.h5", 7).to_string(), "run/a.h5#7");
+    }
+}
