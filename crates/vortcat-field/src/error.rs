@@ -63,7 +63,7 @@ pub enum FieldError {
         reason: String,
     },
     /// A value of the wrong type (e.g. strings where numbers are expected).
-    #[error("'{name}' has type {found}; expected numbers (float or integer)")]
+    #[error("'{name}' holds {found}, not numbers")]
     NotNumeric {
         /// Array, dataset or column.
         name: String,
@@ -141,11 +141,5 @@ impl FieldError {
 impl From<hdf5::Error> for FieldError {
     fn from(e: hdf5::Error) -> Self {
         FieldError::Hdf5(e.to_string())
-    }
-}
-
-impl From<csv::Error> for FieldError {
-    fn from(e: csv::Error) -> Self {
-        FieldError::Csv(e.to_string())
     }
 }

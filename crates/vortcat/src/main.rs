@@ -1,1 +1,59 @@
-fn main() {}
+//! The `vortcat` command: flags → resolved plan → library calls → output.
+//!
+//! Errors from the libraries are typed; here they gain context and are printed as one line,
+//! `vortcat: error: <file>: <problem>`, with a non-zero exit code.
+
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+mod config;
+mod input;
+mod inspect;
+
+/// Find vortex cores in gridded velocity fields, fit vortex models, write a per-vortex catalog.
+#[derive(Debug, Parser)]
+#[command(name = "vortcat", version, about, long_about = None, propagate_version = true)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Show what vortcat reads in velocity files: arrays, chosen components, grid, snapshots.
+    Inspect(inspect::InspectArgs),
+}
+
+/// Exit code for "could not run" (bad input, bad config, unreadable file).
+pub(crate) const EXIT_FAILURE: u8 = 1;
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Inspect(args) => inspect::run(args),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("vortcat: error: {}", one_line(&e));
+            ExitCode::from(EXIT_FAILURE)
+        }
+    }
+}
+
+/// The error and its causes on one line, without repeating a cause already in the message.
+pub(crate) fn one_line(e: &anyhow::Error) -> String {
+    let mut out = String::new();
+    for cause in e.chain() {
+        let text = cause.to_string();
+        if out.contains(&text) {
+            continue;
+        }
+        if !out.is_empty() {
+            out.push_str(": ");
+        }
+        out.push_str(&text);
+    }
+    out.replace('\n', " ")
+}

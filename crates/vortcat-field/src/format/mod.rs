@@ -1,0 +1,223 @@
+//! Readers, one module per file format, behind one API: [`open`] returns a [`SnapshotReader`]
+//! that describes the source ([`SourceInfo`]) and reads snapshots one at a time, so a stack of
+//! thousands of snapshots never sits in memory at once.
+//!
+//! The array formats (NumPy, HDF5) implement the small [`ArrayStore`] trait — named arrays in
+//! vortcat's logical axis order, read whole or one index along an axis — and share one
+//! [`assemble::ArrayReader`] that picks components, builds the grid and yields snapshots. CSV
+//! reconstructs its grid from scattered columns and implements [`SnapshotReader`] directly.
+
+use std::path::{Path, PathBuf};
+
+use ndarray::ArrayD;
+use serde::Serialize;
+
+use crate::error::FieldError;
+use crate::grid::Grid;
+use crate::snapshot::Snapshot;
+use crate::spec::{FormatHint, InputSpec};
+
+pub mod assemble;
+pub mod csv;
+pub mod hdf5;
+pub mod npy;
+pub mod npz;
+
+/// One array, dataset or column as found in a file.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct ArrayInfo {
+    /// Name (NumPy array name, HDF5 dataset path, CSV column).
+    pub name: String,
+    /// Shape in vortcat's logical order (after any layout reversal).
+    pub shape: Vec<usize>,
+    /// Element type as the file states it (e.g. `<f4`, `float64`, `int16`).
+    pub dtype: String,
+}
+
+/// Which stored array plays which role.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct RoleAssignment {
+    /// `u`, `v`, `w`, `mask`, `x`, `y`, `z` or `t`.
+    pub role: String,
+    /// The array, dataset or column (for a stacked `.npy`: `name[axis k = i]`).
+    pub source: String,
+}
+
+/// Where the grid's coordinates came from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum GridOrigin {
+    /// Coordinate arrays in the file.
+    Coordinates,
+    /// Spacing attributes in the file.
+    Attributes,
+    /// The spacing given in the input description (config or `--spacing`).
+    Description,
+    /// Nothing said: unit spacing in grid units. Lengths are then in grid spacings.
+    UnitSpacing,
+}
+
+/// What a reader sees in a source.
+#[derive(Debug, Clone, Serialize)]
+pub struct SourceInfo {
+    /// The file (or folder of per-component `.npy` files).
+    pub path: PathBuf,
+    /// Format name: `npy`, `npz`, `hdf5` or `csv`.
+    pub format: String,
+    /// Every array, dataset or column found.
+    pub arrays: Vec<ArrayInfo>,
+    /// The arrays chosen for each role.
+    pub roles: Vec<RoleAssignment>,
+    /// The grid of every snapshot.
+    pub grid: Grid,
+    /// Where the grid came from.
+    pub grid_origin: GridOrigin,
+    /// Number of snapshots.
+    pub snapshots: usize,
+}
+
+/// A source of snapshots.
+pub trait SnapshotReader: Send {
+    /// What the reader found.
+    fn info(&self) -> &SourceInfo;
+
+    /// Reads snapshot `index` (0-based along the stack). Errors carry the file name.
+    fn read(&mut self, index: usize) -> Result<Snapshot, FieldError>;
+
+    /// Number of snapshots.
+    fn len(&self) -> usize {
+        self.info().snapshots
+    }
+
+    /// Whether the source holds no snapshot (never true for an opened source).
+    fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+}
+
+/// Named numeric arrays in vortcat's logical axis order: the abstraction the array formats share.
+pub trait ArrayStore: Send {
+    /// Format name.
+    fn format(&self) -> &'static str;
+    /// Every array the store holds.
+    fn arrays(&self) -> &[ArrayInfo];
+    /// Reads a whole array as `f64` (coordinates, time vectors, small stacks).
+    fn read_all(&mut self, name: &str) -> Result<ArrayD<f64>, FieldError>;
+    /// Reads index `index` along logical axis `axis`, returning the array with that axis removed.
+    fn read_along(&mut self, name: &str, axis: usize, index: usize)
+        -> Result<ArrayD<f64>, FieldError>;
+    /// A numeric attribute of an array (`Some(name)`) or of the file (`None`).
+    fn attr_f64(&self, _array: Option<&str>, _key: &str) -> Option<f64> {
+        None
+    }
+    /// A string attribute of an array or of the file.
+    fn attr_string(&self, _array: Option<&str>, _key: &str) -> Option<String> {
+        None
+    }
+    /// Whether the store is a single file holding one array with all components.
+    fn is_single_array(&self) -> bool {
+        false
+    }
+}
+
+/// Looks up an array by name; `Missing` lists what exists.
+pub(crate) fn find<'a>(arrays: &'a [ArrayInfo], name: &str) -> Result<&'a ArrayInfo, FieldError> {
+    arrays
+        .iter()
+        .find(|a| a.name == name || a.name.trim_start_matches('/') == name.trim_start_matches('/'))
+        .ok_or_else(|| FieldError::Missing {
+            kind: "array",
+            name: name.to_string(),
+            available: arrays.iter().map(|a| a.name.clone()).collect(),
+        })
+}
+
+/// The format of `path`: the description's hint, else the extension (`.npy`, `.npz`, `.h5`,
+/// `.hdf5`, `.he5`, `.mat`, `.nc`, `.nc4`, `.csv`, `.txt`, `.dat`, `.tsv`), else a folder of
+/// `.npy` files.
+pub fn detect_format(path: &Path, spec: &InputSpec) -> Result<FormatHint, FieldError> {
+    if let Some(f) = spec.format {
+        return Ok(f);
+    }
+    if path.is_dir() {
+        return Ok(FormatHint::Npy);
+    }
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+        .unwrap_or_default();
+    match ext.as_str() {
+        "npy" => Ok(FormatHint::Npy),
+        "npz" => Ok(FormatHint::Npz),
+        "h5" | "hdf5" | "hdf" | "he5" | "mat" | "nc" | "nc4" | "cdf" => Ok(FormatHint::Hdf5),
+        "csv" | "txt" | "dat" | "tsv" => Ok(FormatHint::Csv),
+        _ => Err(FieldError::UnknownFormat(format!(
+            "cannot tell the format from the extension '{ext}'; set input.format (npy, npz, hdf5, csv)"
+        ))),
+    }
+}
+
+/// Opens a source. Every error names the file.
+pub fn open(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, FieldError> {
+    open_inner(path, spec).map_err(|e| e.in_file(path))
+}
+
+fn open_inner(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, FieldError> {
+    spec.validate()?;
+    let format = detect_format(path, spec)?;
+    if path.is_dir() && format != FormatHint::Npy {
+        return Err(FieldError::Spec(
+            "is a directory, expected a file".to_string(),
+        ));
+    }
+    if !path.exists() {
+        return Err(FieldError::Io(std::io::Error::new(
+            std::io::ErrorKind::NotFound,
+            "no such file or directory",
+        )));
+    }
+    Ok(match format {
+        FormatHint::Npy => Box::new(assemble::ArrayReader::new(
+            path,
+            npy::NpyStore::open(path, spec)?,
+            spec,
+        )?),
+        FormatHint::Npz => Box::new(assemble::ArrayReader::new(
+            path,
+            npz::NpzStore::open(path)?,
+            spec,
+        )?),
+        FormatHint::Hdf5 => Box::new(assemble::ArrayReader::new(
+            path,
+            hdf5::Hdf5Store::open(path, spec)?,
+            spec,
+        )?),
+        FormatHint::Csv => Box::new(csv::CsvReader::open(path, spec)?),
+    })
+}
+
+/// Iterates over the snapshots of a reader in order.
+pub struct Snapshots<'a> {
+    reader: &'a mut dyn SnapshotReader,
+    next: usize,
+}
+
+impl<'a> Snapshots<'a> {
+    /// An iterator from snapshot 0.
+    pub fn new(reader: &'a mut dyn SnapshotReader) -> Self {
+        Self { reader, next: 0 }
+    }
+}
+
+impl Iterator for Snapshots<'_> {
+    type Item = Result<Snapshot, FieldError>;
+    fn next(&mut self) -> Option<Self::Item> {
+        if self.next >= self.reader.len() {
+            return None;
+        }
+        let i = self.next;
+        self.next += 1;
+        Some(self.reader.read(i))
+    }
+}

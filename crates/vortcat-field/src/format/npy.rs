@@ -1,0 +1,334 @@
+//! NumPy `.npy`: a folder of per-component files (`u.npy`, `v.npy`, optional `w.npy`, `x.npy`,
+//! `y.npy`, `mask.npy`, `t.npy`; names from the input description) or one file holding all
+//! components along a component axis.
+//!
+//! The header is parsed by `ndarray-npy`. Data are read lazily with positioned reads: a snapshot
+//! of a stack whose time axis is the slowest-varying in storage (C order with time first, or
+//! Fortran order with time last — the usual cases) is one contiguous read of that snapshot's
+//! bytes. Other layouts are read whole once and cached. Both byte orders, every integer and
+//! float width and booleans are decoded to `f64`.
+
+use std::collections::HashMap;
+use std::fs::File;
+use std::io::{BufReader, Seek};
+use std::os::unix::fs::FileExt;
+use std::path::{Path, PathBuf};
+
+use ndarray::{ArrayD, Axis as NdAxis, IxDyn, ShapeBuilder};
+use ndarray_npy::npy::header::Header;
+
+use super::{ArrayInfo, ArrayStore};
+use crate::error::FieldError;
+use crate::spec::InputSpec;
+
+/// A decoded `.npy` element type.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct Dtype {
+    kind: u8,
+    size: usize,
+    little_endian: bool,
+}
+
+impl Dtype {
+    /// Parses a descriptor such as `<f8`, `>i2`, `|u1`, `|b1`.
+    pub(crate) fn parse(name: &str, descr: &py_literal::Value) -> Result<Self, FieldError> {
+        let text = match descr {
+            py_literal::Value::String(s) => s.clone(),
+            other => {
+                return Err(FieldError::NotNumeric {
+                    name: name.to_string(),
+                    found: format!("structured dtype {other}"),
+                })
+            }
+        };
+        let bytes = text.as_bytes();
+        if bytes.len() < 3 {
+            return Err(FieldError::Npy(format!("'{name}': unreadable dtype '{text}'")));
+        }
+        let little_endian = match bytes[0] {
+            b'<' | b'|' | b'=' => true,
+            b'>' => false,
+            _ => return Err(FieldError::Npy(format!("'{name}': unreadable dtype '{text}'"))),
+        };
+        let kind = bytes[1];
+        let size: usize = text[2..]
+            .parse()
+            .map_err(|_| FieldError::Npy(format!("'{name}': unreadable dtype '{text}'")))?;
+        let ok = match kind {
+            b'f' => matches!(size, 4 | 8),
+            b'i' | b'u' => matches!(size, 1 | 2 | 4 | 8),
+            b'b' => size == 1,
+            _ => false,
+        };
+        if !ok {
+            let found = match kind {
+                b'U' | b'S' | b'a' => format!("strings ({text})"),
+                b'O' => "Python objects".to_string(),
+                b'c' => format!("complex numbers ({text})"),
+                _ => text.clone(),
+            };
+            return Err(FieldError::NotNumeric {
+                name: name.to_string(),
+                found,
+            });
+        }
+        Ok(Self {
+            kind,
+            size,
+            little_endian,
+        })
+    }
+
+    /// Element size in bytes.
+    pub(crate) fn size(&self) -> usize {
+        self.size
+    }
+
+    /// Decodes `bytes` (a whole number of elements) to `f64`.
+    pub(crate) fn decode(&self, bytes: &[u8]) -> Vec<f64> {
+        macro_rules! conv {
+            ($t:ty, $n:expr) => {
+                bytes
+                    .chunks_exact($n)
+                    .map(|c| {
+                        let a: [u8; $n] = c.try_into().expect("chunk size");
+                        (if self.little_endian {
+                            <$t>::from_le_bytes(a)
+                        } else {
+                            <$t>::from_be_bytes(a)
+                        }) as f64
+                    })
+                    .collect()
+            };
+        }
+        match (self.kind, self.size) {
+            (b'f', 4) => conv!(f32, 4),
+            (b'f', 8) => conv!(f64, 8),
+            (b'i', 1) => conv!(i8, 1),
+            (b'i', 2) => conv!(i16, 2),
+            (b'i', 4) => conv!(i32, 4),
+            (b'i', 8) => conv!(i64, 8),
+            (b'u', 1) | (b'b', 1) => conv!(u8, 1),
+            (b'u', 2) => conv!(u16, 2),
+            (b'u', 4) => conv!(u32, 4),
+            (b'u', 8) => conv!(u64, 8),
+            _ => unreachable!("checked in parse"),
+        }
+    }
+
+    /// A short name for display, e.g. `<f4`.
+    pub(crate) fn display(&self) -> String {
+        format!(
+            "{}{}{}",
+            if self.size == 1 {
+                '|'
+            } else if self.little_endian {
+                '<'
+            } else {
+                '>'
+            },
+            self.kind as char,
+            self.size
+        )
+    }
+}
+
+/// Parsed header of one `.npy` stream, with the checks that must pass before any allocation.
+#[derive(Debug, Clone)]
+pub(crate) struct NpyHeader {
+    pub(crate) shape: Vec<usize>,
+    pub(crate) fortran: bool,
+    pub(crate) dtype: Dtype,
+    pub(crate) data_bytes: u64,
+}
+
+impl NpyHeader {
+    pub(crate) fn read<R: std::io::Read>(name: &str, reader: &mut R) -> Result<Self, FieldError> {
+        let header = Header::from_reader(reader)
+            .map_err(|e| FieldError::Corrupt(format!("'{name}' is not a valid .npy stream: {e}")))?;
+        let dtype = Dtype::parse(name, &header.type_descriptor)?;
+        let elements = header
+            .shape
+            .iter()
+            .try_fold(1u64, |acc, &n| acc.checked_mul(n as u64))
+            .ok_or_else(|| FieldError::Corrupt(format!("'{name}': shape {:?} overflows", header.shape)))?;
+        let data_bytes = elements
+            .checked_mul(dtype.size() as u64)
+            .ok_or_else(|| FieldError::Corrupt(format!("'{name}': shape {:?} overflows", header.shape)))?;
+        Ok(Self {
+            shape: header.shape,
+            fortran: header.layout.is_fortran(),
+            dtype,
+            data_bytes,
+        })
+    }
+
+    /// Builds an array of this header's logical shape from storage-order values.
+    pub(crate) fn to_array(&self, shape: &[usize], values: Vec<f64>) -> Result<ArrayD<f64>, FieldError> {
+        let built = if self.fortran {
+            ArrayD::from_shape_vec(IxDyn(shape).f(), values)
+        } else {
+            ArrayD::from_shape_vec(IxDyn(shape), values)
+        };
+        built.map_err(|e| FieldError::Corrupt(format!("data do not fit shape {shape:?}: {e}")))
+    }
+}
+
+#[derive(Debug)]
+struct NpyArray {
+    file: File,
+    header: NpyHeader,
+    data_offset: u64,
+}
+
+impl NpyArray {
+    fn open(name: &str, path: &Path) -> Result<Self, FieldError> {
+        let file = File::open(path).map_err(|e| FieldError::Io(e).in_file(path))?;
+        let len = file.metadata()?.len();
+        let mut reader = BufReader::new(&file);
+        let header = NpyHeader::read(name, &mut reader).map_err(|e| e.in_file(path))?;
+        let data_offset = reader.stream_position()?;
+        let available = len.saturating_sub(data_offset);
+        if header.data_bytes > available {
+            return Err(FieldError::Corrupt(format!(
+                "header of '{name}' claims shape {:?} ({} bytes of data) but the file holds only {available} bytes after the header (truncated?)",
+                header.shape, header.data_bytes
+            ))
+            .in_file(path));
+        }
+        Ok(Self {
+            file,
+            header,
+            data_offset,
+        })
+    }
+
+    fn read_bytes(&self, offset: u64, len: u64) -> Result<Vec<f64>, FieldError> {
+        let mut buf = vec![0u8; len as usize];
+        self.file
+            .read_exact_at(&mut buf, self.data_offset + offset)?;
+        Ok(self.header.dtype.decode(&buf))
+    }
+}
+
+/// The `.npy` store: a folder of arrays or one file.
+#[derive(Debug)]
+pub struct NpyStore {
+    arrays: Vec<ArrayInfo>,
+    files: HashMap<String, NpyArray>,
+    cache: HashMap<String, ArrayD<f64>>,
+    single: bool,
+}
+
+impl NpyStore {
+    /// Opens a folder of `.npy` files or a single `.npy` file.
+    pub fn open(path: &Path, _spec: &InputSpec) -> Result<Self, FieldError> {
+        let mut entries: Vec<(String, PathBuf)> = Vec::new();
+        let single = !path.is_dir();
+        if single {
+            let stem = path
+                .file_stem()
+                .and_then(|s| s.to_str())
+                .unwrap_or("array")
+                .to_string();
+            entries.push((stem, path.to_path_buf()));
+        } else {
+            for entry in std::fs::read_dir(path)? {
+                let p = entry?.path();
+                if p.extension().and_then(|e| e.to_str()) == Some("npy") && p.is_file() {
+                    if let Some(stem) = p.file_stem().and_then(|s| s.to_str()) {
+                        entries.push((stem.to_string(), p.clone()));
+                    }
+                }
+            }
+            entries.sort();
+            if entries.is_empty() {
+                return Err(FieldError::Missing {
+                    kind: "file",
+                    name: "*.npy".into(),
+                    available: vec![],
+                });
+            }
+        }
+        let mut arrays = Vec::new();
+        let mut files = HashMap::new();
+        for (name, p) in entries {
+            let array = NpyArray::open(&name, &p)?;
+            arrays.push(ArrayInfo {
+                name: name.clone(),
+                shape: array.header.shape.clone(),
+                dtype: array.header.dtype.display(),
+            });
+            files.insert(name, array);
+        }
+        Ok(Self {
+            arrays,
+            files,
+            cache: HashMap::new(),
+            single,
+        })
+    }
+
+    fn array(&self, name: &str) -> Result<&NpyArray, FieldError> {
+        self.files.get(name).ok_or_else(|| FieldError::Missing {
+            kind: "array",
+            name: name.to_string(),
+            available: self.arrays.iter().map(|a| a.name.clone()).collect(),
+        })
+    }
+}
+
+impl ArrayStore for NpyStore {
+    fn format(&self) -> &'static str {
+        "npy"
+    }
+
+    fn arrays(&self) -> &[ArrayInfo] {
+        &self.arrays
+    }
+
+    fn is_single_array(&self) -> bool {
+        self.single
+    }
+
+    fn read_all(&mut self, name: &str) -> Result<ArrayD<f64>, FieldError> {
+        if let Some(a) = self.cache.get(name) {
+            return Ok(a.clone());
+        }
+        let array = self.array(name)?;
+        let values = array.read_bytes(0, array.header.data_bytes)?;
+        array.header.to_array(&array.header.shape.clone(), values)
+    }
+
+    fn read_along(
+        &mut self,
+        name: &str,
+        axis: usize,
+        index: usize,
+    ) -> Result<ArrayD<f64>, FieldError> {
+        let array = self.array(name)?;
+        let header = &array.header;
+        let rank = header.shape.len();
+        if axis >= rank || index >= header.shape[axis] {
+            return Err(FieldError::IndexOutOfRange {
+                index,
+                len: header.shape.get(axis).copied().unwrap_or(0),
+            });
+        }
+        let contiguous = (!header.fortran && axis == 0) || (header.fortran && axis == rank - 1);
+        if contiguous {
+            let mut rest = header.shape.clone();
+            rest.remove(axis);
+            let per = rest.iter().product::<usize>() as u64 * header.dtype.size() as u64;
+            let values = array.read_bytes(index as u64 * per, per)?;
+            return header.to_array(&rest, values);
+        }
+        if !self.cache.contains_key(name) {
+            log::debug!("'{name}': stack axis {axis} is not contiguous on disk; reading it whole");
+            let whole = self.read_all(name)?;
+            self.cache.insert(name.to_string(), whole);
+        }
+        let whole = &self.cache[name];
+        Ok(whole.index_axis(NdAxis(axis), index).to_owned())
+    }
+}
