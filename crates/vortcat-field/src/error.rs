@@ -111,6 +111,9 @@ pub enum FieldError {
         /// Number of snapshots.
         len: usize,
     },
+    /// The path cannot be used as given (e.g. a directory where a file is expected).
+    #[error("{0}")]
+    Unusable(String),
     /// Input description (config or flags) is inconsistent.
     #[error("invalid input description: {0}")]
     Spec(String),

@@ -54,7 +54,7 @@ pub mod snapshot;
 pub mod spec;
 
 pub use error::FieldError;
-pub use grid::{Axis, Grid, Units, DEFAULT_UNIFORM_TOLERANCE};
 pub use format::{open, ArrayInfo, GridOrigin, SnapshotReader, Snapshots, SourceInfo};
+pub use grid::{Axis, Grid, Units, DEFAULT_UNIFORM_TOLERANCE};
 pub use snapshot::{Field, PlaneField, Snapshot, SnapshotId, VolumeField};
 pub use spec::{FormatHint, Geometry, InputSpec, Layout, TimeAxis};

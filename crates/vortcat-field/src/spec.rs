@@ -15,8 +15,10 @@ use crate::grid::{Units, DEFAULT_UNIFORM_TOLERANCE};
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Layout {
-    /// Axes as stored: `[t][z][y][x]` with x fastest (NumPy C order, h5py, NetCDF).
+    /// Column-major for MATLAB `.mat` files, row-major for everything else.
     #[default]
+    Auto,
+    /// Axes as stored: `[t][z][y][x]` with x fastest (NumPy C order, h5py, NetCDF).
     RowMajor,
     /// Axes stored in reverse order, as MATLAB v7.3 (and Fortran HDF5 writers) store a
     /// column-major array: MATLAB's `u(y, x, t)` appears in the HDF5 file as `[t][x][y]`.
@@ -128,7 +130,7 @@ impl Default for InputSpec {
             spacing: None,
             origin: None,
             flip_y: false,
-            layout: Layout::RowMajor,
+            layout: Layout::Auto,
             geometry: Geometry::Plane,
             time_axis: TimeAxis::Auto,
             component_axis: 0,
@@ -196,12 +198,39 @@ impl InputSpec {
             .unwrap_or(0.0)
     }
 
-    /// Whether the time axis is first in logical order.
+    /// The layout for a file: `Auto` resolves by extension (`.mat` → column-major).
+    pub fn resolved_layout(&self, path: &std::path::Path) -> Layout {
+        match self.layout {
+            Layout::Auto => {
+                let mat = path
+                    .extension()
+                    .and_then(|e| e.to_str())
+                    .is_some_and(|e| e.eq_ignore_ascii_case("mat"));
+                if mat {
+                    Layout::ColumnMajor
+                } else {
+                    Layout::RowMajor
+                }
+            }
+            l => l,
+        }
+    }
+
+    /// This description with the layout resolved for `path`, as the readers use it.
+    pub fn for_file(&self, path: &std::path::Path) -> InputSpec {
+        InputSpec {
+            layout: self.resolved_layout(path),
+            ..self.clone()
+        }
+    }
+
+    /// Whether the time axis is first in logical order (call on a [`InputSpec::for_file`]
+    /// description: `Auto` layout counts as row-major).
     pub fn time_first(&self) -> bool {
         match self.time_axis {
             TimeAxis::First => true,
             TimeAxis::Last => false,
-            TimeAxis::Auto => self.layout == Layout::RowMajor,
+            TimeAxis::Auto => self.layout != Layout::ColumnMajor,
         }
     }
 
@@ -209,11 +238,7 @@ impl InputSpec {
     pub fn units(&self, file_length: Option<String>, file_velocity: Option<String>) -> Units {
         let d = Units::default();
         Units {
-            length: self
-                .length_unit
-                .clone()
-                .or(file_length)
-                .unwrap_or(d.length),
+            length: self.length_unit.clone().or(file_length).unwrap_or(d.length),
             velocity: self
                 .velocity_unit
                 .clone()
@@ -240,6 +265,16 @@ mod tests {
             toml::from_str("u = \"/piv/U\"\nlayout = \"column-major\"\nspacing = [0.5]\n").unwrap();
         assert_eq!(spec.u, "/piv/U");
         assert!(!spec.time_first(), "MATLAB keeps time last");
+        let auto = InputSpec::default();
+        assert_eq!(
+            auto.resolved_layout(std::path::Path::new("a/run.MAT")),
+            Layout::ColumnMajor
+        );
+        assert_eq!(
+            auto.resolved_layout(std::path::Path::new("run.h5")),
+            Layout::RowMajor
+        );
+        assert!(!auto.for_file(std::path::Path::new("run.mat")).time_first());
         assert_eq!(spec.spacing_for(1), Some(0.5));
         assert!(toml::from_str::<InputSpec>("uu = \"a\"").is_err());
     }

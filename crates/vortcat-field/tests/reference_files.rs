@@ -36,7 +36,10 @@ fn python_written_files() {
     // and the npz and CSV copies give the same grid.
     let h5 = open(&dir.join("stack_gzip.h5"), &InputSpec::default()).unwrap();
     assert_eq!(h5.info().snapshots, 50);
-    assert_eq!((h5.info().grid.x().len(), h5.info().grid.y().len()), (96, 128));
+    assert_eq!(
+        (h5.info().grid.x().len(), h5.info().grid.y().len()),
+        (96, 128)
+    );
     let npz = open(&dir.join("arrays.npz"), &InputSpec::default()).unwrap();
     let csv = open(&dir.join("snapshot0.csv"), &InputSpec::default()).unwrap();
     assert_eq!(h5.info().grid, npz.info().grid);

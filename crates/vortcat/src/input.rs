@@ -11,6 +11,8 @@ use crate::config::Config;
 /// Array layout on the command line.
 #[derive(Debug, Clone, Copy, ValueEnum)]
 pub enum LayoutArg {
+    /// Column-major for .mat files, row-major otherwise.
+    Auto,
     /// Axes as stored, x fastest (NumPy, h5py, NetCDF).
     RowMajor,
     /// Axes reversed (MATLAB v7.3 and Fortran writers).
@@ -79,7 +81,12 @@ pub struct InputArgs {
     #[arg(long, value_name = "DX[,DY[,DZ]]", value_delimiter = ',')]
     pub spacing: Option<Vec<f64>>,
     /// Coordinates of the first grid point, with --spacing.
-    #[arg(long, value_name = "X0[,Y0[,Z0]]", value_delimiter = ',', allow_negative_numbers = true)]
+    #[arg(
+        long,
+        value_name = "X0[,Y0[,Z0]]",
+        value_delimiter = ',',
+        allow_negative_numbers = true
+    )]
     pub origin: Option<Vec<f64>>,
     /// With --spacing: y decreases with row index (image convention, row 0 at the top).
     #[arg(long)]
@@ -139,6 +146,7 @@ impl InputArgs {
         }
         if let Some(l) = self.layout {
             spec.layout = match l {
+                LayoutArg::Auto => Layout::Auto,
                 LayoutArg::RowMajor => Layout::RowMajor,
                 LayoutArg::ColumnMajor => Layout::ColumnMajor,
             };

@@ -112,8 +112,15 @@ fn print_text(r: &Report) {
             units.length
         );
     }
-    println!("  grid from:  {:?}", info.grid_origin);
-    println!("  units:      length {}, velocity {}", units.length, units.velocity);
+    let origin = serde_json::to_value(info.grid_origin)
+        .ok()
+        .and_then(|v| v.as_str().map(str::to_string))
+        .unwrap_or_default();
+    println!("  grid from:  {origin}");
+    println!(
+        "  units:      length {}, velocity {}",
+        units.length, units.velocity
+    );
     println!("  snapshots:  {}", info.snapshots);
     println!(
         "  read {} snapshot(s): invalid vectors {:.2} %, speed {:.6e} .. {:.6e} {}",

@@ -92,7 +92,10 @@ impl<S: ArrayStore> ArrayReader<S> {
                 });
             }
             for (k, r) in ["u", "v", "w"].iter().take(comp_len).enumerate() {
-                roles.push(role(r, &format!("{}[axis {} = {k}]", a.name, spec.component_axis)));
+                roles.push(role(
+                    r,
+                    &format!("{}[axis {} = {k}]", a.name, spec.component_axis),
+                ));
             }
             Components::Stacked {
                 array: a.name.clone(),
@@ -200,8 +203,14 @@ impl<S: ArrayStore> ArrayReader<S> {
             Components::Separate { u, .. } => u.clone(),
             Components::Stacked { array, .. } => array.clone(),
         };
-        let (grid, grid_origin) =
-            build_grid(&mut store, &arrays, spec, &spatial_shape, &velocity_name, &mut roles)?;
+        let (grid, grid_origin) = build_grid(
+            &mut store,
+            &arrays,
+            spec,
+            &spatial_shape,
+            &velocity_name,
+            &mut roles,
+        )?;
         let info = SourceInfo {
             path: path.to_path_buf(),
             format: store.format().to_string(),
@@ -241,7 +250,11 @@ fn role(role: &str, source: &str) -> RoleAssignment {
 fn component_axis_len(a: &ArrayInfo, spec: &InputSpec, stacked: bool) -> Result<usize, FieldError> {
     let mut per_snapshot = a.shape.clone();
     if stacked {
-        let t = if spec.time_first() { 0 } else { per_snapshot.len() - 1 };
+        let t = if spec.time_first() {
+            0
+        } else {
+            per_snapshot.len() - 1
+        };
         per_snapshot.remove(t);
     }
     per_snapshot
@@ -418,7 +431,10 @@ impl<S: ArrayStore> ArrayReader<S> {
         }
         let mut comps: Vec<ArrayD<f64>> = match self.components.clone() {
             Components::Separate { u, v, w } => {
-                let mut c = vec![self.read_component(&u, index)?, self.read_component(&v, index)?];
+                let mut c = vec![
+                    self.read_component(&u, index)?,
+                    self.read_component(&v, index)?,
+                ];
                 if let Some(w) = w {
                     c.push(self.read_component(&w, index)?);
                 }

@@ -58,7 +58,9 @@ impl CsvReader {
                 FieldError::Io(e)
             }
         })?;
-        let mut lines = text.lines().filter(|l| !l.trim().is_empty() && !l.trim_start().starts_with('#'));
+        let mut lines = text
+            .lines()
+            .filter(|l| !l.trim().is_empty() && !l.trim_start().starts_with('#'));
         let header_line = lines
             .next()
             .ok_or_else(|| FieldError::Csv("the file is empty (no header line)".into()))?;
@@ -77,7 +79,10 @@ impl CsvReader {
         };
         let split = |line: &str| -> Vec<String> {
             match delimiter {
-                Some(d) => line.split(d as char).map(|s| s.trim().to_string()).collect(),
+                Some(d) => line
+                    .split(d as char)
+                    .map(|s| s.trim().to_string())
+                    .collect(),
                 None => line.split_whitespace().map(str::to_string).collect(),
             }
         };
@@ -86,13 +91,21 @@ impl CsvReader {
             .map(|h| h.trim_matches('"').to_string())
             .collect();
         let column = |name: &str| -> Result<usize, FieldError> {
-            header.iter().position(|h| h == name).ok_or_else(|| FieldError::Missing {
-                kind: "column",
-                name: name.to_string(),
-                available: header.clone(),
-            })
+            header
+                .iter()
+                .position(|h| h == name)
+                .ok_or_else(|| FieldError::Missing {
+                    kind: "column",
+                    name: name.to_string(),
+                    available: header.clone(),
+                })
         };
-        let (cx, cy, cu, cv) = (column(&spec.x)?, column(&spec.y)?, column(&spec.u)?, column(&spec.v)?);
+        let (cx, cy, cu, cv) = (
+            column(&spec.x)?,
+            column(&spec.y)?,
+            column(&spec.u)?,
+            column(&spec.v)?,
+        );
         let cw = column(&spec.w).ok();
         let mut rows: Vec<[f64; 5]> = Vec::new();
         for (i, line) in lines.enumerate() {
@@ -115,17 +128,27 @@ impl CsvReader {
             ]);
         }
         if rows.is_empty() {
-            return Err(FieldError::Csv("the file has a header but no data rows".into()));
+            return Err(FieldError::Csv(
+                "the file has a header but no data rows".into(),
+            ));
         }
-        if let Some(r) = rows.iter().position(|r| !(r[0].is_finite() && r[1].is_finite())) {
-            return Err(FieldError::Csv(format!("row {}: missing or non-finite coordinate", r + 2)));
+        if let Some(r) = rows
+            .iter()
+            .position(|r| !(r[0].is_finite() && r[1].is_finite()))
+        {
+            return Err(FieldError::Csv(format!(
+                "row {}: missing or non-finite coordinate",
+                r + 2
+            )));
         }
         let xs: Vec<f64> = rows.iter().map(|r| r[0]).collect();
         let ys: Vec<f64> = rows.iter().map(|r| r[1]).collect();
         let axis = |name: &str, values: &[f64]| -> Result<Axis, FieldError> {
             let (lo, hi) = values
                 .iter()
-                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+                    (a.min(v), b.max(v))
+                });
             let merge = 1e-9 * (hi - lo).abs().max(f64::MIN_POSITIVE);
             let d = distinct(values, merge);
             if d.len() == 1 {
@@ -145,12 +168,15 @@ impl CsvReader {
         let ax = axis("x", &xs)?;
         let ay = axis("y", &ys)?;
         let (nx, ny) = (ax.len(), ay.len());
-        let cells = nx.checked_mul(ny).filter(|&n| n <= 4 * rows.len() + 16).ok_or_else(|| {
-            FieldError::Csv(format!(
-                "{} rows span a {nx} x {ny} grid: points are scattered, not gridded",
-                rows.len()
-            ))
-        })?;
+        let cells = nx
+            .checked_mul(ny)
+            .filter(|&n| n <= 4 * rows.len() + 16)
+            .ok_or_else(|| {
+                FieldError::Csv(format!(
+                    "{} rows span a {nx} x {ny} grid: points are scattered, not gridded",
+                    rows.len()
+                ))
+            })?;
         let mut u = Array2::from_elem((ny, nx), f64::NAN);
         let mut v = Array2::from_elem((ny, nx), f64::NAN);
         let mut w = cw.map(|_| Array2::from_elem((ny, nx), f64::NAN));
@@ -189,13 +215,28 @@ impl CsvReader {
         let grid = Grid::plane(ax, ay, units);
         let field = PlaneField::new(grid.clone(), u, v, w, None)?;
         let mut roles = vec![
-            RoleAssignment { role: "x".into(), source: spec.x.clone() },
-            RoleAssignment { role: "y".into(), source: spec.y.clone() },
-            RoleAssignment { role: "u".into(), source: spec.u.clone() },
-            RoleAssignment { role: "v".into(), source: spec.v.clone() },
+            RoleAssignment {
+                role: "x".into(),
+                source: spec.x.clone(),
+            },
+            RoleAssignment {
+                role: "y".into(),
+                source: spec.y.clone(),
+            },
+            RoleAssignment {
+                role: "u".into(),
+                source: spec.u.clone(),
+            },
+            RoleAssignment {
+                role: "v".into(),
+                source: spec.v.clone(),
+            },
         ];
         if cw.is_some() {
-            roles.push(RoleAssignment { role: "w".into(), source: spec.w.clone() });
+            roles.push(RoleAssignment {
+                role: "w".into(),
+                source: spec.w.clone(),
+            });
         }
         let info = SourceInfo {
             path: path.to_path_buf(),

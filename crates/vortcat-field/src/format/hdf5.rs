@@ -66,7 +66,11 @@ fn is_phony_dimension(ds: &Dataset) -> bool {
         .is_some_and(|s| s.contains("not a netCDF variable"))
 }
 
-fn collect(group: &Group, out: &mut Vec<(Dataset, ArrayInfo)>, reversed: bool) -> Result<(), FieldError> {
+fn collect(
+    group: &Group,
+    out: &mut Vec<(Dataset, ArrayInfo)>,
+    reversed: bool,
+) -> Result<(), FieldError> {
     for ds in group.datasets()? {
         if is_phony_dimension(&ds) {
             continue;
@@ -96,13 +100,17 @@ fn collect(group: &Group, out: &mut Vec<(Dataset, ArrayInfo)>, reversed: bool) -
 fn read_string_attr(a: &hdf5::Attribute) -> Option<String> {
     let t = a.dtype().ok()?.to_descriptor().ok()?;
     match t {
-        TypeDescriptor::VarLenUnicode => a.read_scalar::<VarLenUnicode>().ok().map(|s| s.to_string()),
+        TypeDescriptor::VarLenUnicode => {
+            a.read_scalar::<VarLenUnicode>().ok().map(|s| s.to_string())
+        }
         TypeDescriptor::VarLenAscii => a.read_scalar::<VarLenAscii>().ok().map(|s| s.to_string()),
         TypeDescriptor::FixedAscii(n) | TypeDescriptor::FixedUnicode(n) => {
             // Read the raw bytes: a fixed-length string of n bytes, possibly NUL-padded.
             let bytes: Vec<u8> = read_fixed_bytes(a, n)?;
             let end = bytes.iter().position(|&b| b == 0).unwrap_or(bytes.len());
-            String::from_utf8(bytes[..end].to_vec()).ok().map(|s| s.trim().to_string())
+            String::from_utf8(bytes[..end].to_vec())
+                .ok()
+                .map(|s| s.trim().to_string())
         }
         _ => None,
     }
@@ -131,7 +139,9 @@ impl Hdf5Store {
     /// Opens the file and lists its datasets.
     pub fn open(path: &Path, spec: &InputSpec) -> Result<Self, FieldError> {
         let file = File::open(path).map_err(|e| {
-            FieldError::Corrupt(format!("not a readable HDF5 file (also MATLAB v7.3, NetCDF-4): {e}"))
+            FieldError::Corrupt(format!(
+                "not a readable HDF5 file (also MATLAB v7.3, NetCDF-4): {e}"
+            ))
         })?;
         let reversed = spec.layout == Layout::ColumnMajor;
         let mut found = Vec::new();
@@ -169,11 +179,16 @@ impl Hdf5Store {
         // NetCDF-4 records its default fill value (9.97e36) as the HDF5 dataset's user-defined
         // fill value, without a `_FillValue` attribute. A zero fill value is HDF5's default
         // for unwritten data in general and is never taken as a marker.
-        if let Some(fill) = self.dataset(name).ok().and_then(|ds| ds.dcpl().ok()).and_then(|p| {
-            (p.fill_value_defined() == hdf5::plist::dataset_create::FillValue::UserDefined)
-                .then(|| p.fill_value_as::<f64>())
-                .flatten()
-        }) {
+        if let Some(fill) = self
+            .dataset(name)
+            .ok()
+            .and_then(|ds| ds.dcpl().ok())
+            .and_then(|p| {
+                (p.fill_value_defined() == hdf5::plist::dataset_create::FillValue::UserDefined)
+                    .then(|| p.fill_value_as::<f64>())
+                    .flatten()
+            })
+        {
             if fill != 0.0 && fill.is_finite() {
                 markers.push(fill);
             }
@@ -262,7 +277,11 @@ impl ArrayStore for Hdf5Store {
     fn attr_f64(&self, array: Option<&str>, key: &str) -> Option<f64> {
         let owner = self.attr_owner(array)?;
         let attr = owner.attr(key).ok()?;
-        let values: Vec<f64> = attr.as_reader().conversion(Conversion::Soft).read_raw().ok()?;
+        let values: Vec<f64> = attr
+            .as_reader()
+            .conversion(Conversion::Soft)
+            .read_raw()
+            .ok()?;
         (values.len() == 1).then(|| values[0])
     }
 

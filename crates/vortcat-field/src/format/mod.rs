@@ -104,8 +104,12 @@ pub trait ArrayStore: Send {
     /// Reads a whole array as `f64` (coordinates, time vectors, small stacks).
     fn read_all(&mut self, name: &str) -> Result<ArrayD<f64>, FieldError>;
     /// Reads index `index` along logical axis `axis`, returning the array with that axis removed.
-    fn read_along(&mut self, name: &str, axis: usize, index: usize)
-        -> Result<ArrayD<f64>, FieldError>;
+    fn read_along(
+        &mut self,
+        name: &str,
+        axis: usize,
+        index: usize,
+    ) -> Result<ArrayD<f64>, FieldError>;
     /// A numeric attribute of an array (`Some(name)`) or of the file (`None`).
     fn attr_f64(&self, _array: Option<&str>, _key: &str) -> Option<f64> {
         None
@@ -165,9 +169,10 @@ pub fn open(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, Fi
 
 fn open_inner(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, FieldError> {
     spec.validate()?;
+    let spec = &spec.for_file(path);
     let format = detect_format(path, spec)?;
     if path.is_dir() && format != FormatHint::Npy {
-        return Err(FieldError::Spec(
+        return Err(FieldError::Unusable(
             "is a directory, expected a file".to_string(),
         ));
     }

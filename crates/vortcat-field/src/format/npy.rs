@@ -43,12 +43,18 @@ impl Dtype {
         };
         let bytes = text.as_bytes();
         if bytes.len() < 3 {
-            return Err(FieldError::Npy(format!("'{name}': unreadable dtype '{text}'")));
+            return Err(FieldError::Npy(format!(
+                "'{name}': unreadable dtype '{text}'"
+            )));
         }
         let little_endian = match bytes[0] {
             b'<' | b'|' | b'=' => true,
             b'>' => false,
-            _ => return Err(FieldError::Npy(format!("'{name}': unreadable dtype '{text}'"))),
+            _ => {
+                return Err(FieldError::Npy(format!(
+                    "'{name}': unreadable dtype '{text}'"
+                )))
+            }
         };
         let kind = bytes[1];
         let size: usize = text[2..]
@@ -144,17 +150,20 @@ pub(crate) struct NpyHeader {
 
 impl NpyHeader {
     pub(crate) fn read<R: std::io::Read>(name: &str, reader: &mut R) -> Result<Self, FieldError> {
-        let header = Header::from_reader(reader)
-            .map_err(|e| FieldError::Corrupt(format!("'{name}' is not a valid .npy stream: {e}")))?;
+        let header = Header::from_reader(reader).map_err(|e| {
+            FieldError::Corrupt(format!("'{name}' is not a valid .npy stream: {e}"))
+        })?;
         let dtype = Dtype::parse(name, &header.type_descriptor)?;
         let elements = header
             .shape
             .iter()
             .try_fold(1u64, |acc, &n| acc.checked_mul(n as u64))
-            .ok_or_else(|| FieldError::Corrupt(format!("'{name}': shape {:?} overflows", header.shape)))?;
-        let data_bytes = elements
-            .checked_mul(dtype.size() as u64)
-            .ok_or_else(|| FieldError::Corrupt(format!("'{name}': shape {:?} overflows", header.shape)))?;
+            .ok_or_else(|| {
+                FieldError::Corrupt(format!("'{name}': shape {:?} overflows", header.shape))
+            })?;
+        let data_bytes = elements.checked_mul(dtype.size() as u64).ok_or_else(|| {
+            FieldError::Corrupt(format!("'{name}': shape {:?} overflows", header.shape))
+        })?;
         Ok(Self {
             shape: header.shape,
             fortran: header.layout.is_fortran(),
@@ -164,7 +173,11 @@ impl NpyHeader {
     }
 
     /// Builds an array of this header's logical shape from storage-order values.
-    pub(crate) fn to_array(&self, shape: &[usize], values: Vec<f64>) -> Result<ArrayD<f64>, FieldError> {
+    pub(crate) fn to_array(
+        &self,
+        shape: &[usize],
+        values: Vec<f64>,
+    ) -> Result<ArrayD<f64>, FieldError> {
         let built = if self.fortran {
             ArrayD::from_shape_vec(IxDyn(shape).f(), values)
         } else {
@@ -243,11 +256,11 @@ impl NpyStore {
             }
             entries.sort();
             if entries.is_empty() {
-                return Err(FieldError::Missing {
-                    kind: "file",
-                    name: "*.npy".into(),
-                    available: vec![],
-                });
+                return Err(FieldError::Unusable(
+                    "is a directory with no .npy files; give a velocity file, or a folder of \
+                     per-component .npy files (u.npy, v.npy, ...)"
+                        .into(),
+                ));
             }
         }
         let mut arrays = Vec::new();

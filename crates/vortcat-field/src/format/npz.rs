@@ -66,11 +66,15 @@ impl NpzStore {
     }
 
     fn decode(&mut self, name: &str) -> Result<ArrayD<f64>, FieldError> {
-        let (member, header) = self.members.get(name).cloned().ok_or_else(|| FieldError::Missing {
-            kind: "array",
-            name: name.to_string(),
-            available: self.arrays.iter().map(|a| a.name.clone()).collect(),
-        })?;
+        let (member, header) =
+            self.members
+                .get(name)
+                .cloned()
+                .ok_or_else(|| FieldError::Missing {
+                    kind: "array",
+                    name: name.to_string(),
+                    available: self.arrays.iter().map(|a| a.name.clone()).collect(),
+                })?;
         let mut entry = self.archive.by_name(&member).map_err(zip_error)?;
         // Skip the header again, then read exactly the data bytes the header announced.
         NpyHeader::read(name, &mut entry)?;

@@ -32,7 +32,13 @@ fn same(a: f64, b: f64) -> bool {
 
 /// Reads every snapshot of `file` and compares with the reference; `round` maps a reference
 /// value to what the file stores (identity for float64, f32 rounding for float32 files).
-pub fn check_file(dir: &Path, file: &str, spec: &InputSpec, round: fn(f64) -> f64, check_coords: bool) {
+pub fn check_file(
+    dir: &Path,
+    file: &str,
+    spec: &InputSpec,
+    round: fn(f64) -> f64,
+    check_coords: bool,
+) {
     let r = reference(dir);
     let path = dir.join(file);
     let mut reader = open(&path, spec).unwrap_or_else(|e| panic!("{file}: {e}"));
@@ -44,13 +50,29 @@ pub fn check_file(dir: &Path, file: &str, spec: &InputSpec, round: fn(f64) -> f6
         let tol = 1e-12; // coordinates are float64 multiples of 1e-3: only rounding differs
         let gx = info.grid.x();
         let gy = info.grid.y();
-        assert!((gx.origin() - r.x[0]).abs() < tol, "{file}: x origin {}", gx.origin());
-        assert!((gy.origin() - r.y[0]).abs() < tol, "{file}: y origin {}", gy.origin());
-        assert!(((gx.spacing() - (r.x[1] - r.x[0])) / gx.spacing()).abs() < 1e-9, "{file}: dx");
-        assert!(((gy.spacing() - (r.y[1] - r.y[0])) / gy.spacing()).abs() < 1e-9, "{file}: dy");
+        assert!(
+            (gx.origin() - r.x[0]).abs() < tol,
+            "{file}: x origin {}",
+            gx.origin()
+        );
+        assert!(
+            (gy.origin() - r.y[0]).abs() < tol,
+            "{file}: y origin {}",
+            gy.origin()
+        );
+        assert!(
+            ((gx.spacing() - (r.x[1] - r.x[0])) / gx.spacing()).abs() < 1e-9,
+            "{file}: dx"
+        );
+        assert!(
+            ((gy.spacing() - (r.y[1] - r.y[0])) / gy.spacing()).abs() < 1e-9,
+            "{file}: dy"
+        );
     }
     for t in 0..nt {
-        let snap = reader.read(t).unwrap_or_else(|e| panic!("{file} #{t}: {e}"));
+        let snap = reader
+            .read(t)
+            .unwrap_or_else(|e| panic!("{file} #{t}: {e}"));
         assert_eq!(snap.id.index, t);
         let Field::Plane(p) = snap.field else {
             panic!("{file}: expected a plane")
@@ -63,7 +85,11 @@ pub fn check_file(dir: &Path, file: &str, spec: &InputSpec, round: fn(f64) -> f6
                     same(gu, eu) && same(gv, ev),
                     "{file} snapshot {t} [{iy},{ix}]: read ({gu}, {gv}), numpy wrote ({eu}, {ev})"
                 );
-                assert_eq!(p.valid()[[iy, ix]], !eu.is_nan(), "{file}: mask at [{t},{iy},{ix}]");
+                assert_eq!(
+                    p.valid()[[iy, ix]],
+                    !eu.is_nan(),
+                    "{file}: mask at [{t},{iy},{ix}]"
+                );
             }
         }
     }
@@ -131,8 +157,14 @@ pub fn check_csv(dir: &Path) {
         for iy in 0..ny {
             for ix in 0..nx {
                 // repr() in Python writes the shortest round-tripping decimal: exact.
-                assert!(same(p.u()[[iy, ix]], r.u[[0, iy, ix]]), "{file} u[{iy},{ix}]");
-                assert!(same(p.v()[[iy, ix]], r.v[[0, iy, ix]]), "{file} v[{iy},{ix}]");
+                assert!(
+                    same(p.u()[[iy, ix]], r.u[[0, iy, ix]]),
+                    "{file} u[{iy},{ix}]"
+                );
+                assert!(
+                    same(p.v()[[iy, ix]], r.v[[0, iy, ix]]),
+                    "{file} v[{iy},{ix}]"
+                );
             }
         }
     }
