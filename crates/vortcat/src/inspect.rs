@@ -1,6 +1,6 @@
 //! `vortcat inspect`: what the reader sees in each file.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use anyhow::Context;
@@ -66,7 +66,7 @@ fn scan(reader: &mut dyn SnapshotReader, all: bool) -> Result<Scan, vortcat_fiel
     })
 }
 
-fn describe(path: &PathBuf, args: &InspectArgs) -> anyhow::Result<Report> {
+fn describe(path: &Path, args: &InspectArgs) -> anyhow::Result<Report> {
     let (_, spec) = args.input.resolve()?;
     let mut reader = open(path, &spec)?;
     let scan = scan(reader.as_mut(), args.all_snapshots)?;
