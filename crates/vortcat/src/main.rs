@@ -10,6 +10,7 @@ use clap::{Parser, Subcommand};
 mod config;
 mod input;
 mod inspect;
+mod synth;
 
 /// Find vortex cores in gridded velocity fields, fit vortex models, write a per-vortex catalog.
 #[derive(Debug, Parser)]
@@ -23,6 +24,8 @@ struct Cli {
 enum Command {
     /// Show what vortcat reads in velocity files: arrays, chosen components, grid, snapshots.
     Inspect(inspect::InspectArgs),
+    /// Write synthetic snapshots with a known vortex population and its truth table.
+    Synth(synth::SynthArgs),
 }
 
 /// Exit code for "could not run" (bad input, bad config, unreadable file).
@@ -32,6 +35,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Inspect(args) => inspect::run(args),
+        Command::Synth(args) => synth::run(args),
     };
     match result {
         Ok(code) => code,

@@ -190,8 +190,12 @@ impl<S: ArrayStore> ArrayReader<S> {
             Err(_) => None,
         };
 
+        // Snapshot times: a vector along the stack, or a scalar for a single snapshot.
         let times = match find(&arrays, &spec.time) {
-            Ok(t) if t.shape == [n_snapshots] && time_axis.is_some() => {
+            Ok(t)
+                if (t.shape == [n_snapshots] && time_axis.is_some())
+                    || (t.shape.iter().product::<usize>() == 1 && n_snapshots == 1) =>
+            {
                 let values = store.read_all(&t.name)?;
                 roles.push(role("t", &t.name));
                 Some(values.iter().copied().collect())
