@@ -292,3 +292,23 @@ fn missing_file_and_bad_config() {
     ]);
     assert_one_line_error(&run, &["run.toml", "invalid config"]);
 }
+
+#[test]
+fn hdf5_dataset_too_large_to_read_is_refused_before_allocating() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("sparse.h5");
+    {
+        // A chunked dataset of 2 × 10^6 × 10^6 float64 that HDF5 stores sparsely (no chunk
+        // written): a snapshot would need 7450 GiB.
+        let f = hdf5::File::create(&p).unwrap();
+        for name in ["u", "v"] {
+            f.new_dataset::<f64>()
+                .shape((2, 1_000_000, 1_000_000))
+                .chunk((1, 1000, 1000))
+                .create(name)
+                .unwrap();
+        }
+    }
+    let run = vortcat([std::ffi::OsStr::new("inspect"), p.as_os_str()]);
+    assert_one_line_error(&run, &["sparse.h5", "refusing"]);
+}

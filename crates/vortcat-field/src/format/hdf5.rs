@@ -25,6 +25,25 @@ use super::{find, ArrayInfo, ArrayStore};
 use crate::error::FieldError;
 use crate::spec::{InputSpec, Layout};
 
+/// The largest single read, in bytes of `f64`: a corrupt or hostile header that claims more is
+/// refused before anything is allocated. 16 GiB holds a 1024³ volume component; real snapshots
+/// are far smaller.
+const MAX_READ_BYTES: u64 = 16 << 30;
+
+fn check_size(name: &str, shape: &[usize]) -> Result<(), FieldError> {
+    let bytes = shape
+        .iter()
+        .try_fold(8u64, |acc, &n| acc.checked_mul(n as u64))
+        .unwrap_or(u64::MAX);
+    if bytes > MAX_READ_BYTES {
+        return Err(FieldError::Corrupt(format!(
+            "dataset '{name}' with shape {shape:?} would need {:.1} GiB for one read; refusing",
+            bytes as f64 / (1u64 << 30) as f64
+        )));
+    }
+    Ok(())
+}
+
 /// The HDF5 store.
 pub struct Hdf5Store {
     file: File,
@@ -232,6 +251,7 @@ impl ArrayStore for Hdf5Store {
 
     fn read_all(&mut self, name: &str) -> Result<ArrayD<f64>, FieldError> {
         let ds = self.dataset(name)?;
+        check_size(name, &ds.shape())?;
         let a: ArrayD<f64> = ds.as_reader().conversion(Conversion::Soft).read_dyn()?;
         Ok(self.finish(name, a))
     }
@@ -266,6 +286,9 @@ impl ArrayStore for Hdf5Store {
                 }
             })
             .collect();
+        let mut per_snapshot = shape.clone();
+        per_snapshot.remove(stored_axis);
+        check_size(name, &per_snapshot)?;
         let selection = hdf5::Selection::from(hdf5::Hyperslab::from(slices));
         let a: ArrayD<f64> = ds
             .as_reader()
