@@ -4,3 +4,4 @@
 mod bad_input;
 mod harness;
 mod inspect;
+mod survey;

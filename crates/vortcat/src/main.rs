@@ -10,6 +10,8 @@ use clap::{Parser, Subcommand};
 mod config;
 mod input;
 mod inspect;
+mod plan;
+mod survey;
 mod synth;
 
 /// Find vortex cores in gridded velocity fields, fit vortex models, write a per-vortex catalog.
@@ -24,6 +26,8 @@ struct Cli {
 enum Command {
     /// Show what vortcat reads in velocity files: arrays, chosen components, grid, snapshots.
     Inspect(inspect::InspectArgs),
+    /// Find and fit every vortex in many snapshots; write a per-vortex catalog.
+    Survey(survey::SurveyArgs),
     /// Write synthetic snapshots with a known vortex population and its truth table.
     Synth(synth::SynthArgs),
 }
@@ -35,6 +39,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Inspect(args) => inspect::run(args),
+        Command::Survey(args) => survey::run(args),
         Command::Synth(args) => synth::run(args),
     };
     match result {

@@ -1,0 +1,255 @@
+//! The per-vortex catalog: one row per fitted vortex, written as CSV and as JSON lines, with
+//! a units table beside them. Columns are described in `docs/catalog.md`.
+
+use std::io::Write;
+use std::path::Path;
+
+use serde::{Deserialize, Serialize};
+
+/// One catalog row. `None` is an empty CSV field and a JSON `null`: the value does not apply
+/// (e.g. strain rate for a Lamb–Oseen fit) or could not be computed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CatalogRow {
+    /// Snapshot identifier `file#index`.
+    pub snapshot: String,
+    /// Vortex number within the snapshot, from 1, in detection order.
+    pub vortex: usize,
+    /// Source file as given on the command line (or found in a folder).
+    pub file: String,
+    /// Index in the file's stack.
+    pub index: usize,
+    /// Snapshot time, when the file records one.
+    pub time: Option<f64>,
+    /// Fitted centre x.
+    pub x: Option<f64>,
+    /// Fitted centre y.
+    pub y: Option<f64>,
+    /// +1 counter-clockwise in x–y, −1 clockwise.
+    pub sense: i8,
+    /// Chosen model.
+    pub model: String,
+    /// Fit status.
+    pub status: String,
+    /// Circulation Γ.
+    pub circulation: Option<f64>,
+    /// Standard error of Γ.
+    pub circulation_err: Option<f64>,
+    /// Core radius rc.
+    pub core_radius: Option<f64>,
+    /// Standard error of rc.
+    pub core_radius_err: Option<f64>,
+    /// Strain rate γ from the fitted inflow (Burgers).
+    pub strain_rate: Option<f64>,
+    /// Standard error of γ.
+    pub strain_rate_err: Option<f64>,
+    /// Strain rate implied by the core radius and viscosity, 4ν/rc².
+    pub strain_rate_viscous: Option<f64>,
+    /// Effective viscosity γ·rc²/4 over ν (1 for a Burgers vortex in balance).
+    pub viscosity_ratio: Option<f64>,
+    /// Peak azimuthal velocity.
+    pub peak_velocity: Option<f64>,
+    /// Convection velocity x.
+    pub conv_u: Option<f64>,
+    /// Convection velocity y.
+    pub conv_v: Option<f64>,
+    /// Circulation Reynolds number Γ/ν.
+    pub reynolds: Option<f64>,
+    /// Vectors in the fitting window.
+    pub n_points: usize,
+    /// RMS velocity residual.
+    pub residual_rms: Option<f64>,
+    /// Coefficient of determination of the velocity in the window.
+    pub r2: Option<f64>,
+    /// p-value of the inflow term: likelihood-ratio test of Burgers against Lamb–Oseen.
+    pub inflow_p_value: Option<f64>,
+    /// Fitting-window radius.
+    pub window_radius: Option<f64>,
+    /// Detection centre x (criterion-weighted centroid).
+    pub detect_x: f64,
+    /// Detection centre y.
+    pub detect_y: f64,
+    /// Peak criterion value in the detected region.
+    pub criterion_peak: f64,
+    /// Equivalent radius √(area/π) of the detected region.
+    pub equivalent_radius: f64,
+    /// Quality flags, separated by `;`; empty when none.
+    pub flags: String,
+}
+
+/// Column, unit kind and description, in column order.
+pub const COLUMNS: &[(&str, &str, &str)] = &[
+    ("snapshot", "", "snapshot identifier file#index"),
+    ("vortex", "", "vortex number within the snapshot, from 1"),
+    ("file", "", "source file"),
+    ("index", "", "index in the file's stack"),
+    ("time", "time", "snapshot time from the file"),
+    ("x", "length", "fitted centre x"),
+    ("y", "length", "fitted centre y"),
+    (
+        "sense",
+        "",
+        "+1 counter-clockwise in the x-y plane, -1 clockwise",
+    ),
+    ("model", "", "chosen model"),
+    ("status", "", "fit status"),
+    ("circulation", "length^2/time", "circulation"),
+    (
+        "circulation_err",
+        "length^2/time",
+        "standard error of the circulation",
+    ),
+    ("core_radius", "length", "core radius rc"),
+    ("core_radius_err", "length", "standard error of rc"),
+    (
+        "strain_rate",
+        "1/time",
+        "strain rate from the fitted inflow (Burgers)",
+    ),
+    (
+        "strain_rate_err",
+        "1/time",
+        "standard error of the strain rate",
+    ),
+    ("strain_rate_viscous", "1/time", "4 nu / rc^2"),
+    (
+        "viscosity_ratio",
+        "",
+        "effective viscosity gamma rc^2/4 over nu",
+    ),
+    ("peak_velocity", "velocity", "peak azimuthal velocity"),
+    ("conv_u", "velocity", "convection velocity x"),
+    ("conv_v", "velocity", "convection velocity y"),
+    ("reynolds", "", "circulation Reynolds number Gamma/nu"),
+    ("n_points", "", "vectors in the fitting window"),
+    ("residual_rms", "velocity", "RMS velocity residual"),
+    ("r2", "", "coefficient of determination"),
+    (
+        "inflow_p_value",
+        "",
+        "p-value of the inflow term (Burgers against Lamb-Oseen)",
+    ),
+    ("window_radius", "length", "fitting-window radius"),
+    ("detect_x", "length", "detection centroid x"),
+    ("detect_y", "length", "detection centroid y"),
+    (
+        "criterion_peak",
+        "criterion",
+        "peak criterion value of the region",
+    ),
+    (
+        "equivalent_radius",
+        "length",
+        "sqrt(area/pi) of the detected region",
+    ),
+    ("flags", "", "quality flags separated by ';'"),
+];
+
+/// Writes `catalog.csv` with a header even when there are no rows.
+pub fn write_csv(path: &Path, rows: &[CatalogRow]) -> anyhow::Result<()> {
+    let mut w = csv::WriterBuilder::new()
+        .has_headers(false)
+        .from_writer(Vec::new());
+    w.write_record(COLUMNS.iter().map(|c| c.0))?;
+    for r in rows {
+        w.serialize(r)?;
+    }
+    let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+    crate::survey::store::write_atomic(path, &bytes)
+}
+
+/// Writes the same rows as JSON lines.
+pub fn write_jsonl(path: &Path, rows: &[CatalogRow]) -> anyhow::Result<()> {
+    let mut out = Vec::new();
+    for r in rows {
+        serde_json::to_writer(&mut out, r)?;
+        out.write_all(b"\n")?;
+    }
+    crate::survey::store::write_atomic(path, &out)
+}
+
+/// Writes `units.csv`: column, unit, description, with the unit kinds resolved.
+pub fn write_units(
+    path: &Path,
+    length: &str,
+    velocity: &str,
+    criterion_unit: &str,
+) -> anyhow::Result<()> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record(["column", "unit", "description"])?;
+    for (name, kind, description) in COLUMNS {
+        let unit = match *kind {
+            "length" => length.to_string(),
+            "velocity" => velocity.to_string(),
+            "time" => "s".to_string(),
+            "length^2/time" => format!("({length})*({velocity})"),
+            "1/time" => format!("({velocity})/({length})"),
+            "criterion" => criterion_unit.to_string(),
+            _ => String::new(),
+        };
+        w.write_record([*name, unit.as_str(), *description])?;
+    }
+    let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+    crate::survey::store::write_atomic(path, &bytes)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn columns_match_the_row_fields() {
+        // The header is written from COLUMNS; serde writes the row fields in declaration order.
+        let row = CatalogRow {
+            snapshot: "a.h5#0".into(),
+            vortex: 1,
+            file: "a.h5".into(),
+            index: 0,
+            time: None,
+            x: Some(1.0),
+            y: Some(2.0),
+            sense: 1,
+            model: "lamb-oseen".into(),
+            status: "converged".into(),
+            circulation: Some(1.0),
+            circulation_err: Some(0.1),
+            core_radius: Some(0.5),
+            core_radius_err: Some(0.01),
+            strain_rate: None,
+            strain_rate_err: None,
+            strain_rate_viscous: None,
+            viscosity_ratio: None,
+            peak_velocity: Some(0.2),
+            conv_u: Some(0.0),
+            conv_v: Some(0.0),
+            reynolds: None,
+            n_points: 100,
+            residual_rms: Some(0.01),
+            r2: Some(0.99),
+            inflow_p_value: None,
+            window_radius: Some(1.5),
+            detect_x: 1.0,
+            detect_y: 2.0,
+            criterion_peak: 3.0,
+            equivalent_radius: 0.4,
+            flags: String::new(),
+        };
+        // serde's own header (declaration order) must equal the one written from COLUMNS.
+        let mut w = csv::Writer::from_writer(Vec::new());
+        w.serialize(&row).unwrap();
+        let text = String::from_utf8(w.into_inner().unwrap()).unwrap();
+        let columns: Vec<&str> = COLUMNS.iter().map(|c| c.0).collect();
+        assert_eq!(text.lines().next().unwrap(), columns.join(","));
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("c.csv");
+        write_csv(&p, &[row]).unwrap();
+        let text = std::fs::read_to_string(&p).unwrap();
+        let header = text.lines().next().unwrap();
+        assert_eq!(header, columns.join(","));
+        let second: Vec<&str> = text.lines().nth(1).unwrap().split(',').collect();
+        assert_eq!(second.len(), columns.len());
+        assert_eq!(
+            second[columns.iter().position(|c| *c == "strain_rate").unwrap()],
+            ""
+        );
+    }
+}

@@ -1,0 +1,188 @@
+//! Input expansion: files, folders and glob patterns become a sorted, de-duplicated list of
+//! velocity sources, each hashed for the manifest and for resuming.
+
+use std::collections::BTreeSet;
+use std::fs::File;
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+use anyhow::{bail, Context};
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// File extensions a folder is scanned for.
+const EXTENSIONS: &[&str] = &[
+    "npy", "npz", "h5", "hdf5", "hdf", "he5", "mat", "nc", "nc4", "cdf", "csv", "txt", "dat", "tsv",
+];
+
+/// One velocity source (a file, or a folder of per-component `.npy` files).
+#[derive(Debug, Clone, Serialize)]
+pub struct Source {
+    /// The path as given or found.
+    pub path: PathBuf,
+    /// Size in bytes (sum over the files of a folder source).
+    pub bytes: u64,
+    /// SHA-256 of the content (for a folder: of each file's name and content, in name order).
+    pub sha256: String,
+}
+
+fn is_component_folder(dir: &Path) -> bool {
+    dir.join("u.npy").is_file() && dir.join("v.npy").is_file()
+}
+
+fn supported(path: &Path) -> bool {
+    path.extension()
+        .and_then(|e| e.to_str())
+        .is_some_and(|e| EXTENSIONS.contains(&e.to_ascii_lowercase().as_str()))
+}
+
+/// Files in a folder worth reading: velocity files, and subfolders of per-component `.npy`
+/// files. Truth tables and our own outputs (`*.csv` named `truth`, `catalog`, `units`) are
+/// skipped so that a synth folder can be surveyed as it is.
+fn scan_folder(dir: &Path, out: &mut BTreeSet<PathBuf>) -> anyhow::Result<()> {
+    if is_component_folder(dir) {
+        out.insert(dir.to_path_buf());
+        return Ok(());
+    }
+    let entries =
+        std::fs::read_dir(dir).with_context(|| format!("{}: cannot list folder", dir.display()))?;
+    for entry in entries {
+        let path = entry?.path();
+        if path.is_dir() {
+            if is_component_folder(&path) {
+                out.insert(path);
+            }
+        } else if supported(&path) {
+            let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("");
+            if matches!(stem, "truth" | "catalog" | "units") {
+                continue;
+            }
+            out.insert(path);
+        }
+    }
+    Ok(())
+}
+
+/// Expands the command-line inputs. Errors when nothing is found.
+pub fn expand(inputs: &[String]) -> anyhow::Result<Vec<PathBuf>> {
+    let mut found = BTreeSet::new();
+    for input in inputs {
+        let path = PathBuf::from(input);
+        if path.is_dir() {
+            scan_folder(&path, &mut found)?;
+        } else if path.exists() {
+            found.insert(path);
+        } else if input.contains(['*', '?', '[']) {
+            let matches =
+                glob::glob(input).with_context(|| format!("{input}: bad glob pattern"))?;
+            let mut any = false;
+            for m in matches {
+                let p = m?;
+                any = true;
+                if p.is_dir() {
+                    scan_folder(&p, &mut found)?;
+                } else {
+                    found.insert(p);
+                }
+            }
+            if !any {
+                bail!("{input}: the pattern matches no file");
+            }
+        } else {
+            bail!("{input}: no such file or directory");
+        }
+    }
+    if found.is_empty() {
+        bail!("no velocity files found in {}", inputs.join(", "));
+    }
+    Ok(found.into_iter().collect())
+}
+
+fn hash_file(path: &Path, hasher: &mut Sha256) -> anyhow::Result<u64> {
+    let mut f = File::open(path).with_context(|| format!("{}: cannot open", path.display()))?;
+    let mut buf = vec![0u8; 1 << 20];
+    let mut total = 0;
+    loop {
+        let n = f
+            .read(&mut buf)
+            .with_context(|| format!("{}: read error", path.display()))?;
+        if n == 0 {
+            break;
+        }
+        total += n as u64;
+        hasher.update(&buf[..n]);
+    }
+    Ok(total)
+}
+
+/// Size and content hash of a source.
+pub fn describe(path: &Path) -> anyhow::Result<Source> {
+    let mut hasher = Sha256::new();
+    let bytes = if path.is_dir() {
+        let mut files: Vec<PathBuf> = std::fs::read_dir(path)?
+            .filter_map(|e| e.ok().map(|e| e.path()))
+            .filter(|p| p.is_file())
+            .collect();
+        files.sort();
+        let mut total = 0;
+        for f in files {
+            hasher.update(
+                f.file_name()
+                    .map(|n| n.to_string_lossy().into_owned())
+                    .unwrap_or_default(),
+            );
+            total += hash_file(&f, &mut hasher)?;
+        }
+        total
+    } else {
+        hash_file(path, &mut hasher)?
+    };
+    Ok(Source {
+        path: path.to_path_buf(),
+        bytes,
+        sha256: hex(&hasher.finalize()),
+    })
+}
+
+/// Lower-case hexadecimal.
+pub fn hex(bytes: &[u8]) -> String {
+    bytes.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn folders_globs_and_duplicates() {
+        let dir = tempfile::tempdir().unwrap();
+        let d = dir.path();
+        for name in ["b.npz", "a.h5", "notes.md", "truth.csv"] {
+            std::fs::write(d.join(name), b"x").unwrap();
+        }
+        std::fs::create_dir(d.join("frame")).unwrap();
+        std::fs::write(d.join("frame/u.npy"), b"x").unwrap();
+        std::fs::write(d.join("frame/v.npy"), b"x").unwrap();
+        let a = d.join("a.h5").to_string_lossy().into_owned();
+        let pattern = d.join("*.npz").to_string_lossy().into_owned();
+        let found = expand(&[d.to_string_lossy().into_owned(), a, pattern]).unwrap();
+        let names: Vec<String> = found
+            .iter()
+            .map(|p| p.file_name().unwrap().to_string_lossy().into_owned())
+            .collect();
+        assert_eq!(names, ["a.h5", "b.npz", "frame"]);
+        assert!(expand(&[d.join("*.nothing").to_string_lossy().into_owned()]).is_err());
+    }
+
+    #[test]
+    fn sha256_of_a_known_string() {
+        // FIPS 180-2, appendix B.1: SHA-256("abc").
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("abc.txt");
+        std::fs::write(&p, b"abc").unwrap();
+        assert_eq!(
+            describe(&p).unwrap().sha256,
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+    }
+}

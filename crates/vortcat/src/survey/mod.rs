@@ -1,0 +1,566 @@
+//! `vortcat survey`: many snapshots in, one per-vortex catalog out. Parallel over snapshots
+//! and vortices, resumable after any interruption, and reproducible: the catalog bytes do not
+//! depend on the thread count, the completion order or on interruptions.
+
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant, SystemTime};
+
+use anyhow::{bail, Context};
+use clap::Args;
+use rayon::prelude::*;
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+use crate::config::Config;
+use crate::input::InputArgs;
+use crate::plan::Plan;
+
+pub mod catalog;
+pub mod inputs;
+pub mod pipeline;
+pub mod store;
+
+use catalog::CatalogRow;
+use store::{Part, Store, Timing};
+
+/// Exit code: finished, but some snapshots failed.
+pub const EXIT_PARTIAL: u8 = 3;
+/// Exit code: interrupted (Ctrl-C); the state on disk is resumable.
+pub const EXIT_INTERRUPTED: u8 = 130;
+
+/// Arguments of `vortcat survey`.
+#[derive(Debug, Args)]
+pub struct SurveyArgs {
+    /// Velocity files, folders and glob patterns; a stacked file gives one snapshot per index.
+    #[arg(value_name = "INPUT", required_unless_present = "print_config")]
+    inputs: Vec<String>,
+    /// Output folder for the catalog, the manifest and the resumable per-snapshot state.
+    #[arg(
+        long,
+        value_name = "DIR",
+        required_unless_present = "print_config",
+        help_heading = "Output"
+    )]
+    out: Option<PathBuf>,
+    #[command(flatten)]
+    input: InputArgs,
+    /// Kinematic viscosity of the fluid in (length unit)²/s (overrides fluid.viscosity).
+    #[arg(long, value_name = "NU", help_heading = "Fluid")]
+    viscosity: Option<f64>,
+    /// Detection criterion (overrides detection.criterion): vorticity, q, lambda2,
+    /// swirling-strength, delta, gamma1, gamma2.
+    #[arg(long, value_name = "NAME", help_heading = "Detection")]
+    criterion: Option<String>,
+    /// Models to fit, comma-separated (overrides fit.models).
+    #[arg(
+        long,
+        value_name = "LIST",
+        value_delimiter = ',',
+        help_heading = "Fitting"
+    )]
+    models: Option<Vec<String>>,
+    /// PIV interrogation-window size in length units (overrides fit.piv_window).
+    #[arg(long, value_name = "W", help_heading = "Fitting")]
+    piv_window: Option<f64>,
+    /// Worker threads [default: all cores].
+    #[arg(long, value_name = "N", help_heading = "Run")]
+    threads: Option<usize>,
+    /// Continue an interrupted survey in DIR (the default when DIR holds the same survey).
+    #[arg(long, help_heading = "Run")]
+    resume: bool,
+    /// Start afresh in DIR even if it holds a survey with another config.
+    #[arg(long, help_heading = "Run")]
+    force: bool,
+    /// Print the fully resolved config, every default included, and exit.
+    #[arg(long, help_heading = "Run")]
+    print_config: bool,
+    /// Progress display: auto (a bar on a terminal, log lines otherwise), bar, log, none.
+    #[arg(
+        long,
+        value_name = "MODE",
+        default_value = "auto",
+        help_heading = "Run"
+    )]
+    progress: String,
+}
+
+/// One snapshot to process.
+#[derive(Debug, Clone)]
+struct Job {
+    source: usize,
+    index: usize,
+}
+
+/// What the manifest says of a snapshot.
+#[derive(Debug, Clone, Serialize)]
+struct SnapshotStatus {
+    snapshot: String,
+    status: String,
+    error: Option<String>,
+    candidates: usize,
+    vortices: usize,
+    flagged: usize,
+    timing: Timing,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct InputRecord {
+    path: String,
+    bytes: u64,
+    sha256: String,
+    snapshots: usize,
+    error: Option<String>,
+}
+
+fn resolve_config(args: &SurveyArgs) -> anyhow::Result<Config> {
+    let (mut config, _) = args.input.resolve()?;
+    // `resolve` applies the input flags to the loaded config's [input] section.
+    config.input = args.input.resolve()?.1;
+    if let Some(nu) = args.viscosity {
+        config.fluid.viscosity = Some(nu);
+    }
+    if let Some(c) = &args.criterion {
+        config.detection.criterion = c.clone();
+    }
+    if let Some(m) = &args.models {
+        config.fit.models = m.clone();
+    }
+    if let Some(w) = args.piv_window {
+        config.fit.piv_window = Some(w);
+    }
+    Ok(config)
+}
+
+fn config_hash(config_toml: &str) -> String {
+    let mut h = Sha256::new();
+    h.update(env!("CARGO_PKG_VERSION").as_bytes());
+    h.update([0]);
+    h.update(config_toml.as_bytes());
+    inputs::hex(&h.finalize())
+}
+
+fn display_path(p: &Path) -> String {
+    p.to_string_lossy().into_owned()
+}
+
+/// Reports progress on a terminal (a bar) or in a log (a line every 30 s).
+struct Progress {
+    bar: Option<indicatif::ProgressBar>,
+    log: bool,
+    total: usize,
+    done: AtomicUsize,
+    started: Instant,
+    last_line: Mutex<Instant>,
+}
+
+impl Progress {
+    fn new(mode: &str, total: usize, already: usize) -> anyhow::Result<Self> {
+        let terminal = std::io::stderr().is_terminal();
+        let (bar, log) = match (mode, terminal) {
+            ("auto", true) | ("bar", _) => (true, false),
+            ("auto", false) | ("log", _) => (false, true),
+            ("none", _) => (false, false),
+            (other, _) => bail!("--progress: unknown mode '{other}' (auto, bar, log, none)"),
+        };
+        let bar = bar.then(|| {
+            let b = indicatif::ProgressBar::new(total as u64);
+            b.set_style(
+                indicatif::ProgressStyle::with_template(
+                    "{bar:40} {pos}/{len} snapshots  {per_sec}  ETA {eta}  {msg}",
+                )
+                .expect("static template"),
+            );
+            b.set_position(already as u64);
+            b
+        });
+        Ok(Self {
+            bar,
+            log,
+            total,
+            done: AtomicUsize::new(already),
+            started: Instant::now(),
+            last_line: Mutex::new(Instant::now()),
+        })
+    }
+
+    fn tick(&self, failed: usize) {
+        let done = self.done.fetch_add(1, Ordering::Relaxed) + 1;
+        if let Some(b) = &self.bar {
+            b.set_position(done as u64);
+            if failed > 0 {
+                b.set_message(format!("{failed} failed"));
+            }
+        }
+        if self.log {
+            let mut last = self.last_line.lock().expect("progress lock");
+            if last.elapsed() >= Duration::from_secs(30) || done == self.total {
+                *last = Instant::now();
+                let rate = done as f64 / self.started.elapsed().as_secs_f64().max(1e-9);
+                let eta = (self.total - done) as f64 / rate.max(1e-9);
+                eprintln!(
+                    "vortcat: {done}/{} snapshots, {rate:.2}/s, {failed} failed, ETA {}",
+                    self.total,
+                    humantime::format_duration(Duration::from_secs(eta as u64))
+                );
+            }
+        }
+    }
+
+    fn finish(&self) {
+        if let Some(b) = &self.bar {
+            b.finish_and_clear();
+        }
+    }
+}
+
+/// Runs the command.
+pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
+    let config = resolve_config(&args)?;
+    let plan = Plan::resolve(&config)?;
+    let config_toml = config.to_toml()?;
+    if args.print_config {
+        print!("{config_toml}");
+        return Ok(ExitCode::SUCCESS);
+    }
+    let out = args.out.clone().expect("clap requires --out");
+    let started_at = SystemTime::now();
+    let started = Instant::now();
+    let threads = args
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    if threads == 0 {
+        bail!("--threads must be at least 1");
+    }
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .context("cannot start the worker threads")?;
+
+    // Inputs: expand, hash, count snapshots.
+    let paths = inputs::expand(&args.inputs)?;
+    let config_sha = config_hash(&config_toml);
+    std::fs::create_dir_all(&out)
+        .with_context(|| format!("{}: cannot create the output folder", out.display()))?;
+    check_previous(&out, &config_sha, args.force)?;
+    let store = Store::open(&out)?;
+    store::write_atomic(&out.join("config.toml"), config_toml.as_bytes())?;
+
+    let records: Vec<InputRecord> = pool.install(|| {
+        paths
+            .par_iter()
+            .map(|p| {
+                let path = display_path(p);
+                let described = inputs::describe(p);
+                let counted = vortcat_field::open(p, &plan.input).map(|r| r.len());
+                match (described, counted) {
+                    (Ok(d), Ok(n)) => InputRecord {
+                        path,
+                        bytes: d.bytes,
+                        sha256: d.sha256,
+                        snapshots: n,
+                        error: None,
+                    },
+                    (Ok(d), Err(e)) => InputRecord {
+                        path,
+                        bytes: d.bytes,
+                        sha256: d.sha256,
+                        snapshots: 0,
+                        error: Some(e.to_string()),
+                    },
+                    (Err(e), _) => InputRecord {
+                        path,
+                        bytes: 0,
+                        sha256: String::new(),
+                        snapshots: 0,
+                        error: Some(crate::one_line(&e)),
+                    },
+                }
+            })
+            .collect()
+    });
+    let jobs: Vec<Job> = records
+        .iter()
+        .enumerate()
+        .flat_map(|(s, r)| (0..r.snapshots).map(move |index| Job { source: s, index }))
+        .collect();
+    let pending: Vec<&Job> = jobs
+        .iter()
+        .filter(|j| {
+            let r = &records[j.source];
+            store
+                .done(&r.path, &r.sha256, j.index, &config_sha)
+                .is_none()
+        })
+        .collect();
+    let skipped = jobs.len() - pending.len();
+    if skipped > 0 {
+        eprintln!(
+            "vortcat: resuming: {skipped} of {} snapshots already done",
+            jobs.len()
+        );
+    } else if args.resume {
+        eprintln!(
+            "vortcat: --resume: nothing done yet in {}, starting",
+            out.display()
+        );
+    }
+
+    // Ctrl-C: finish the snapshots in hand, start no new one; a second Ctrl-C stops at once.
+    let cancel = Arc::new(AtomicBool::new(false));
+    {
+        let cancel = cancel.clone();
+        let _ = ctrlc::set_handler(move || {
+            if cancel.swap(true, Ordering::SeqCst) {
+                std::process::exit(i32::from(EXIT_INTERRUPTED));
+            }
+            eprintln!("\nvortcat: interrupted: finishing the snapshots in progress; run the same command again to resume");
+        });
+    }
+
+    let progress = Progress::new(&args.progress, jobs.len(), skipped)?;
+    let failures = AtomicUsize::new(0);
+    // Consecutive snapshots of one file go to one worker, so a stack is opened once per run of
+    // snapshots rather than once per snapshot (an .npz member is decompressed once per run).
+    let runs = group_runs(&pending, threads);
+    let save_errors: Mutex<Vec<String>> = Mutex::new(Vec::new());
+    pool.install(|| {
+        runs.par_iter().for_each(|run| {
+            let record = &records[run[0].source];
+            let mut reader = match vortcat_field::open(Path::new(&record.path), &plan.input) {
+                Ok(r) => Some(r),
+                Err(e) => {
+                    for job in run {
+                        let part = failed_part(record, job.index, &config_sha, e.to_string());
+                        failures.fetch_add(1, Ordering::Relaxed);
+                        if let Err(e) = store.save(&part) {
+                            save_errors.lock().expect("lock").push(crate::one_line(&e));
+                        }
+                        progress.tick(failures.load(Ordering::Relaxed));
+                    }
+                    None
+                }
+            };
+            let Some(reader) = reader.as_mut() else {
+                return;
+            };
+            for job in run {
+                if cancel.load(Ordering::SeqCst) {
+                    return;
+                }
+                let part = process_one(reader.as_mut(), record, job.index, &config_sha, &plan);
+                if part.status != "done" {
+                    failures.fetch_add(1, Ordering::Relaxed);
+                }
+                if let Err(e) = store.save(&part) {
+                    save_errors.lock().expect("lock").push(crate::one_line(&e));
+                }
+                progress.tick(failures.load(Ordering::Relaxed));
+            }
+        });
+    });
+    progress.finish();
+    if let Some(e) = save_errors.lock().expect("lock").first() {
+        bail!("cannot write results: {e}");
+    }
+    if cancel.load(Ordering::SeqCst) {
+        eprintln!("vortcat: stopped; {} holds the finished snapshots. Run the same command again to resume.", out.display());
+        return Ok(ExitCode::from(EXIT_INTERRUPTED));
+    }
+
+    // Assemble, in the stable order of inputs and indices.
+    let mut rows: Vec<CatalogRow> = Vec::new();
+    let mut statuses = Vec::new();
+    for job in &jobs {
+        let r = &records[job.source];
+        let part = store
+            .load(&r.path, &r.sha256, job.index)
+            .unwrap_or_else(|| {
+                failed_part(r, job.index, &config_sha, "no result was written".into())
+            });
+        let flagged = part.rows.iter().filter(|r| !r.flags.is_empty()).count();
+        statuses.push(SnapshotStatus {
+            snapshot: part.snapshot.clone(),
+            status: part.status.clone(),
+            error: part.error.clone(),
+            candidates: part.candidates,
+            vortices: part.rows.len(),
+            flagged,
+            timing: part.timing.clone(),
+        });
+        rows.extend(part.rows);
+    }
+    let input_failures: Vec<&InputRecord> = records.iter().filter(|r| r.error.is_some()).collect();
+    let failed_snapshots = statuses.iter().filter(|s| s.status != "done").count();
+    let units = records
+        .iter()
+        .find(|r| r.error.is_none())
+        .and_then(|r| vortcat_field::open(Path::new(&r.path), &plan.input).ok())
+        .map(|r| r.info().grid.units().clone())
+        .unwrap_or_default();
+    catalog::write_csv(&out.join("catalog.csv"), &rows)?;
+    catalog::write_jsonl(&out.join("catalog.jsonl"), &rows)?;
+    catalog::write_units(
+        &out.join("units.csv"),
+        &units.length,
+        &units.velocity,
+        plan.detection.criterion().name(),
+    )?;
+    let ended_at = SystemTime::now();
+    let summary = serde_json::json!({
+        "snapshots": jobs.len(),
+        "snapshots_done": jobs.len() - failed_snapshots,
+        "snapshots_failed": failed_snapshots,
+        "inputs_failed": input_failures.len(),
+        "vortices": rows.len(),
+        "vortices_flagged": rows.iter().filter(|r| !r.flags.is_empty()).count(),
+        "seconds": started.elapsed().as_secs_f64(),
+        "per_snapshot": statuses,
+    });
+    store::write_atomic(
+        &out.join("summary.json"),
+        (serde_json::to_string_pretty(&summary)? + "\n").as_bytes(),
+    )?;
+    let manifest = serde_json::json!({
+        "tool": "vortcat",
+        "version": env!("CARGO_PKG_VERSION"),
+        "git_commit": option_env!("VORTCAT_GIT_COMMIT").unwrap_or("unknown"),
+        "command": std::env::args().collect::<Vec<_>>(),
+        "config": config,
+        "config_sha256": config_sha,
+        "inputs": records,
+        "snapshots": statuses.iter().map(|s| serde_json::json!({
+            "snapshot": s.snapshot, "status": s.status, "error": s.error,
+        })).collect::<Vec<_>>(),
+        "started": humantime::format_rfc3339_seconds(started_at).to_string(),
+        "ended": humantime::format_rfc3339_seconds(ended_at).to_string(),
+        "threads": threads,
+        "resumed_snapshots": skipped,
+    });
+    store::write_atomic(
+        &out.join("run.json"),
+        (serde_json::to_string_pretty(&manifest)? + "\n").as_bytes(),
+    )?;
+
+    for r in &input_failures {
+        eprintln!("vortcat: error: {}", r.error.as_deref().unwrap_or(""));
+    }
+    for s in statuses.iter().filter(|s| s.status != "done") {
+        eprintln!(
+            "vortcat: failed: {}: {}",
+            s.snapshot,
+            s.error.as_deref().unwrap_or("")
+        );
+    }
+    println!(
+        "{} snapshots ({} failed), {} vortices ({} flagged) -> {}",
+        jobs.len(),
+        failed_snapshots,
+        rows.len(),
+        rows.iter().filter(|r| !r.flags.is_empty()).count(),
+        out.join("catalog.csv").display()
+    );
+    Ok(if failed_snapshots > 0 || !input_failures.is_empty() {
+        ExitCode::from(EXIT_PARTIAL)
+    } else {
+        ExitCode::SUCCESS
+    })
+}
+
+/// Refuses to mix results of different configs in one folder unless `--force`.
+fn check_previous(out: &Path, config_sha: &str, force: bool) -> anyhow::Result<()> {
+    let previous = out.join("config.toml");
+    if let Ok(old) = std::fs::read_to_string(&previous) {
+        if config_hash(&old) != config_sha {
+            if !force {
+                bail!(
+                    "{}: holds a survey with a different config; use another --out, or --force to start afresh there",
+                    out.display()
+                );
+            }
+            let parts = out.join("parts");
+            if parts.exists() {
+                std::fs::remove_dir_all(&parts)
+                    .with_context(|| format!("{}: cannot clear", parts.display()))?;
+            }
+        }
+    }
+    Ok(())
+}
+
+fn failed_part(record: &InputRecord, index: usize, config_sha: &str, error: String) -> Part {
+    Part {
+        snapshot: format!("{}#{index}", record.path),
+        file: record.path.clone(),
+        index,
+        source_sha256: record.sha256.clone(),
+        config_sha256: config_sha.to_string(),
+        status: "failed".into(),
+        error: Some(error),
+        candidates: 0,
+        rows: vec![],
+        timing: Timing::default(),
+    }
+}
+
+fn process_one(
+    reader: &mut dyn vortcat_field::SnapshotReader,
+    record: &InputRecord,
+    index: usize,
+    config_sha: &str,
+    plan: &Plan,
+) -> Part {
+    let t0 = Instant::now();
+    let snapshot = match reader.read(index) {
+        Ok(s) => s,
+        Err(e) => return failed_part(record, index, config_sha, e.to_string()),
+    };
+    let read = t0.elapsed().as_secs_f64();
+    match pipeline::process(&snapshot, &record.path, plan) {
+        Ok(outcome) => Part {
+            snapshot: format!("{}#{index}", record.path),
+            file: record.path.clone(),
+            index,
+            source_sha256: record.sha256.clone(),
+            config_sha256: config_sha.to_string(),
+            status: "done".into(),
+            error: None,
+            candidates: outcome.candidates,
+            rows: outcome.rows,
+            timing: Timing {
+                read,
+                detect: outcome.detect_seconds,
+                fit: outcome.fit_seconds,
+            },
+        },
+        Err(e) => failed_part(
+            record,
+            index,
+            config_sha,
+            format!("{}: {}", record.path, crate::one_line(&e)),
+        ),
+    }
+}
+
+/// Splits the pending jobs into runs of consecutive snapshots of one file, small enough that
+/// every worker gets several runs.
+fn group_runs<'a>(pending: &[&'a Job], threads: usize) -> Vec<Vec<&'a Job>> {
+    let target = (pending.len() / (4 * threads.max(1))).clamp(1, 64);
+    let mut runs: Vec<Vec<&Job>> = Vec::new();
+    for &job in pending {
+        match runs.last_mut() {
+            Some(run)
+                if run.len() < target
+                    && run[0].source == job.source
+                    && run.last().map(|j| j.index + 1) == Some(job.index) =>
+            {
+                run.push(job)
+            }
+            _ => runs.push(vec![job]),
+        }
+    }
+    runs
+}

@@ -1,0 +1,162 @@
+//! The survey's on-disk state: per-snapshot result files written atomically as they finish, so
+//! that a run killed at any moment can be resumed and gives the same catalog bytes.
+
+use std::fs;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+
+use super::catalog::CatalogRow;
+use super::inputs::hex;
+
+/// Writes `bytes` to `path` through a temporary file in the same folder and a rename, with an
+/// fsync before the rename: readers see the old file or the new one, never a torn one.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+    let dir = path.parent().unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+    {
+        let mut f =
+            fs::File::create(&tmp).with_context(|| format!("{}: cannot write", tmp.display()))?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+    }
+    fs::rename(&tmp, path).with_context(|| format!("{}: cannot write", path.display()))?;
+    Ok(())
+}
+
+/// Timings of one snapshot, in seconds.
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+pub struct Timing {
+    /// Reading.
+    pub read: f64,
+    /// Detection.
+    pub detect: f64,
+    /// Fitting.
+    pub fit: f64,
+}
+
+/// The result of one snapshot as stored in `DIR/parts/`.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct Part {
+    /// Snapshot identifier `file#index`.
+    pub snapshot: String,
+    /// Source file.
+    pub file: String,
+    /// Index in the stack.
+    pub index: usize,
+    /// Content hash of the source.
+    pub source_sha256: String,
+    /// Hash of the resolved config this result was computed with.
+    pub config_sha256: String,
+    /// `done` or `failed`.
+    pub status: String,
+    /// The error, for a failed snapshot.
+    pub error: Option<String>,
+    /// Number of detected candidates.
+    pub candidates: usize,
+    /// Catalog rows.
+    pub rows: Vec<CatalogRow>,
+    /// Timings.
+    pub timing: Timing,
+}
+
+/// Where the parts of a survey live.
+pub struct Store {
+    dir: PathBuf,
+}
+
+impl Store {
+    /// Opens (creating) `out/parts`.
+    pub fn open(out: &Path) -> anyhow::Result<Self> {
+        let dir = out.join("parts");
+        fs::create_dir_all(&dir)
+            .with_context(|| format!("{}: cannot create the output folder", dir.display()))?;
+        Ok(Self { dir })
+    }
+
+    /// The file name of a snapshot's part: a hash of path, content and index.
+    pub fn key(file: &str, source_sha256: &str, index: usize) -> String {
+        let mut h = Sha256::new();
+        h.update(file.as_bytes());
+        h.update([0]);
+        h.update(source_sha256.as_bytes());
+        h.update(index.to_le_bytes());
+        format!("{}.json", &hex(&h.finalize())[..24])
+    }
+
+    /// A finished part with the same input and config, if there is one.
+    pub fn done(
+        &self,
+        file: &str,
+        source_sha256: &str,
+        index: usize,
+        config_sha256: &str,
+    ) -> Option<Part> {
+        let path = self.dir.join(Self::key(file, source_sha256, index));
+        let text = fs::read_to_string(path).ok()?;
+        let part: Part = serde_json::from_str(&text).ok()?;
+        (part.status == "done"
+            && part.config_sha256 == config_sha256
+            && part.source_sha256 == source_sha256)
+            .then_some(part)
+    }
+
+    /// The stored part of a snapshot, whatever its status.
+    pub fn load(&self, file: &str, source_sha256: &str, index: usize) -> Option<Part> {
+        let path = self.dir.join(Self::key(file, source_sha256, index));
+        serde_json::from_str(&fs::read_to_string(path).ok()?).ok()
+    }
+
+    /// Stores a part atomically.
+    pub fn save(&self, part: &Part) -> anyhow::Result<()> {
+        let path = self
+            .dir
+            .join(Self::key(&part.file, &part.source_sha256, part.index));
+        write_atomic(&path, &serde_json::to_vec(part)?)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn atomic_write_replaces_and_leaves_no_temporary() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("a.json");
+        write_atomic(&p, b"one").unwrap();
+        write_atomic(&p, b"two").unwrap();
+        assert_eq!(fs::read(&p).unwrap(), b"two");
+        assert_eq!(fs::read_dir(dir.path()).unwrap().count(), 1);
+    }
+
+    #[test]
+    fn parts_round_trip_and_config_changes_invalidate() {
+        let dir = tempfile::tempdir().unwrap();
+        let store = Store::open(dir.path()).unwrap();
+        let part = Part {
+            snapshot: "a.h5#2".into(),
+            file: "a.h5".into(),
+            index: 2,
+            source_sha256: "abc".into(),
+            config_sha256: "cfg1".into(),
+            status: "done".into(),
+            error: None,
+            candidates: 0,
+            rows: vec![],
+            timing: Timing::default(),
+        };
+        store.save(&part).unwrap();
+        assert!(store.done("a.h5", "abc", 2, "cfg1").is_some());
+        assert!(store.done("a.h5", "abc", 2, "cfg2").is_none());
+        assert!(store.done("a.h5", "abd", 2, "cfg1").is_none());
+        assert!(store.done("a.h5", "abc", 3, "cfg1").is_none());
+    }
+}

@@ -1,0 +1,285 @@
+//! `vortcat survey` end to end: outputs, determinism across thread counts, resuming after
+//! `kill -9`, failures that do not stop the batch, awkward file names, config changes.
+
+use std::path::Path;
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+use crate::harness::vortcat;
+
+fn synth(dir: &Path, snapshots: usize, extra: &[&str]) {
+    let n = snapshots.to_string();
+    let mut args = vec![
+        "synth",
+        "--out",
+        dir.to_str().unwrap(),
+        "--snapshots",
+        n.as_str(),
+        "--nx",
+        "96",
+        "--ny",
+        "64",
+    ];
+    args.extend_from_slice(extra);
+    let run = vortcat(args);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+}
+
+fn survey(inputs: &[&Path], out: &Path, extra: &[&str]) -> crate::harness::Run {
+    let mut args: Vec<String> = vec!["survey".into()];
+    args.extend(inputs.iter().map(|p| p.to_string_lossy().into_owned()));
+    args.extend([
+        "--out".into(),
+        out.to_string_lossy().into_owned(),
+        "--progress".into(),
+        "none".into(),
+    ]);
+    args.extend(extra.iter().map(|s| s.to_string()));
+    vortcat(args)
+}
+
+#[test]
+fn outputs_and_manifest() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 3, &[]);
+    let out = dir.path().join("out");
+    let run = survey(&[&data], &out, &["--viscosity", "1e-6"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    for f in [
+        "catalog.csv",
+        "catalog.jsonl",
+        "units.csv",
+        "summary.json",
+        "run.json",
+        "config.toml",
+    ] {
+        assert!(out.join(f).is_file(), "{f} missing");
+    }
+    let csv_text = std::fs::read_to_string(out.join("catalog.csv")).unwrap();
+    let header = csv_text.lines().next().unwrap();
+    for col in [
+        "snapshot",
+        "vortex",
+        "x",
+        "y",
+        "sense",
+        "model",
+        "circulation",
+        "circulation_err",
+        "core_radius",
+        "core_radius_err",
+        "strain_rate",
+        "strain_rate_err",
+        "peak_velocity",
+        "conv_u",
+        "conv_v",
+        "n_points",
+        "residual_rms",
+        "r2",
+        "flags",
+    ] {
+        assert!(header.split(',').any(|h| h == col), "column {col} missing");
+    }
+    let rows = csv_text.lines().count() - 1;
+    assert!(rows > 0);
+    let jsonl = std::fs::read_to_string(out.join("catalog.jsonl")).unwrap();
+    assert_eq!(jsonl.lines().count(), rows);
+    let manifest: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
+    assert_eq!(manifest["inputs"].as_array().unwrap().len(), 3);
+    assert_eq!(manifest["inputs"][0]["sha256"].as_str().unwrap().len(), 64);
+    assert_eq!(manifest["snapshots"].as_array().unwrap().len(), 3);
+    assert!(manifest["started"].as_str().unwrap().ends_with('Z'));
+    assert_eq!(manifest["config"]["fluid"]["viscosity"], 1e-6);
+    let units = std::fs::read_to_string(out.join("units.csv")).unwrap();
+    assert!(units.contains("circulation,(m)*(m/s),"), "{units}");
+}
+
+#[test]
+fn thread_count_does_not_change_the_catalog() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 6, &["--scenario", "population", "--vortices", "8"]);
+    let (a, b) = (dir.path().join("a"), dir.path().join("b"));
+    assert_eq!(survey(&[&data], &a, &["--threads", "1"]).code, 0);
+    assert_eq!(survey(&[&data], &b, &["--threads", "2"]).code, 0);
+    for f in ["catalog.csv", "catalog.jsonl"] {
+        assert_eq!(
+            std::fs::read(a.join(f)).unwrap(),
+            std::fs::read(b.join(f)).unwrap(),
+            "{f} differs"
+        );
+    }
+}
+
+#[test]
+fn kill_9_then_resume_gives_the_same_catalog() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 40, &["--format", "hdf5"]);
+    let reference = dir.path().join("reference");
+    assert_eq!(survey(&[&data], &reference, &["--threads", "1"]).code, 0);
+
+    let out = dir.path().join("killed");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
+        .args([
+            "survey",
+            data.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--threads",
+            "1",
+            "--progress",
+            "none",
+        ])
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    // Wait until some but not all snapshots are done, then SIGKILL.
+    let deadline = Instant::now() + Duration::from_secs(60);
+    loop {
+        let done = std::fs::read_dir(out.join("parts"))
+            .map(|d| d.count())
+            .unwrap_or(0);
+        if done >= 3 || Instant::now() > deadline {
+            break;
+        }
+        if child.try_wait().unwrap().is_some() {
+            break;
+        }
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    child.kill().unwrap(); // SIGKILL on Unix
+    child.wait().unwrap();
+    let partial = std::fs::read_dir(out.join("parts")).unwrap().count();
+    let run = survey(&[&data], &out, &["--resume", "--threads", "2"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    if partial < 40 {
+        assert!(
+            run.stderr.contains("resuming") || partial == 0,
+            "{}",
+            run.stderr
+        );
+    }
+    assert_eq!(
+        std::fs::read(out.join("catalog.csv")).unwrap(),
+        std::fs::read(reference.join("catalog.csv")).unwrap()
+    );
+}
+
+#[test]
+fn a_corrupt_file_is_recorded_and_the_batch_goes_on() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 3, &[]);
+    std::fs::write(
+        data.join("snap_0009.npz"),
+        b"PK\x03\x04 definitely not a zip",
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let run = survey(&[&data], &out, &[]);
+    assert_eq!(run.code, 3, "{}", run.stderr);
+    assert!(run.stderr.contains("snap_0009.npz"), "{}", run.stderr);
+    let manifest: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
+    let bad: Vec<&serde_json::Value> = manifest["inputs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|i| !i["error"].is_null())
+        .collect();
+    assert_eq!(bad.len(), 1);
+    assert!(bad[0]["path"].as_str().unwrap().ends_with("snap_0009.npz"));
+    let catalog = std::fs::read_to_string(out.join("catalog.csv")).unwrap();
+    for good in ["snap_0000.npz", "snap_0001.npz", "snap_0002.npz"] {
+        assert!(catalog.contains(good), "{good} not catalogued");
+    }
+}
+
+#[test]
+fn awkward_file_names() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 1, &[]);
+    let odd = dir.path().join("run \"7\" – Δt, café.npz");
+    std::fs::rename(data.join("snap_0000.npz"), &odd).unwrap();
+    let out = dir.path().join("out put");
+    let run = survey(&[&odd], &out, &[]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let mut reader = csv::Reader::from_path(out.join("catalog.csv")).unwrap();
+    let first = reader.records().next().unwrap().unwrap();
+    assert!(
+        first[2].ends_with("run \"7\" – Δt, café.npz"),
+        "{:?}",
+        &first[2]
+    );
+}
+
+#[test]
+fn changed_config_is_refused_without_force() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 1, &[]);
+    let out = dir.path().join("out");
+    assert_eq!(survey(&[&data], &out, &[]).code, 0);
+    let run = survey(&[&data], &out, &["--criterion", "q"]);
+    assert_eq!(run.code, 1);
+    assert!(run.stderr.contains("different config"), "{}", run.stderr);
+    assert_eq!(
+        survey(&[&data], &out, &["--criterion", "q", "--force"]).code,
+        0
+    );
+}
+
+#[test]
+fn print_config_shows_every_default_and_reads_back() {
+    let run = vortcat(["survey", "--print-config", "--viscosity", "1e-6"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    for key in [
+        "[input]",
+        "[fluid]",
+        "[detection]",
+        "criterion =",
+        "[fit]",
+        "models =",
+        "[flags]",
+    ] {
+        assert!(run.stdout.contains(key), "{key} missing:\n{}", run.stdout);
+    }
+    let parsed: toml::Value = toml::from_str(&run.stdout).unwrap();
+    assert_eq!(parsed["fluid"]["viscosity"].as_float(), Some(1e-6));
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = dir.path().join("run.toml");
+    std::fs::write(&cfg, &run.stdout).unwrap();
+    let again = vortcat([
+        "survey",
+        "--print-config",
+        "--config",
+        cfg.to_str().unwrap(),
+    ]);
+    assert_eq!(again.stdout, run.stdout);
+}
+
+#[test]
+fn no_inputs_and_bad_usage() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = survey(
+        &[&dir.path().join("nothing-*.h5")],
+        &dir.path().join("o"),
+        &[],
+    );
+    assert_eq!(run.code, 1);
+    assert!(run.stderr.contains("matches no file"), "{}", run.stderr);
+    let run = vortcat(["survey", "x.h5"]);
+    assert_eq!(run.code, 2, "missing --out is a usage error");
+    let run = survey(
+        &[dir.path()],
+        &dir.path().join("o"),
+        &["--criterion", "helicity"],
+    );
+    assert_eq!(run.code, 1);
+    assert!(run.stderr.contains("detection.criterion"), "{}", run.stderr);
+}
