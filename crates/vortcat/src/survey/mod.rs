@@ -455,6 +455,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             s.error.as_deref().unwrap_or("")
         );
     }
+    print!("{}", summary_table(&rows, &units));
     println!(
         "{} snapshots ({} failed), {} vortices ({} flagged) -> {}",
         jobs.len(),
@@ -468,6 +469,60 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     })
+}
+
+fn median(mut values: Vec<f64>) -> Option<f64> {
+    if values.is_empty() {
+        return None;
+    }
+    values.sort_by(f64::total_cmp);
+    let n = values.len();
+    Some(if n % 2 == 1 {
+        values[n / 2]
+    } else {
+        0.5 * (values[n / 2 - 1] + values[n / 2])
+    })
+}
+
+/// A short table per chosen model: count, flagged, medians of |Γ|, rc and γ.
+fn summary_table(rows: &[CatalogRow], units: &vortcat_field::Units) -> String {
+    let mut models: Vec<&str> = rows
+        .iter()
+        .map(|r| r.model.as_str())
+        .filter(|m| !m.is_empty())
+        .collect();
+    models.sort_unstable();
+    models.dedup();
+    if models.is_empty() {
+        return String::new();
+    }
+    let fmt = |x: Option<f64>| x.map_or_else(|| "-".to_string(), |v| format!("{v:.4e}"));
+    let mut out = format!(
+        "{:<12} {:>7} {:>8} {:>14} {:>14} {:>14}\n",
+        "model", "count", "flagged", "median |Γ|", "median rc", "median γ"
+    );
+    for m in models {
+        let sel: Vec<&CatalogRow> = rows.iter().filter(|r| r.model == m).collect();
+        out.push_str(&format!(
+            "{:<12} {:>7} {:>8} {:>14} {:>14} {:>14}\n",
+            m,
+            sel.len(),
+            sel.iter().filter(|r| !r.flags.is_empty()).count(),
+            fmt(median(
+                sel.iter()
+                    .filter_map(|r| r.circulation.map(f64::abs))
+                    .collect()
+            )),
+            fmt(median(sel.iter().filter_map(|r| r.core_radius).collect())),
+            fmt(median(sel.iter().filter_map(|r| r.strain_rate).collect())),
+        ));
+    }
+    out.push_str(&format!(
+        "units: Γ ({l})*({v}), rc {l}, γ ({v})/({l})\n",
+        l = units.length,
+        v = units.velocity
+    ));
+    out
 }
 
 /// Refuses to mix results of different configs in one folder unless `--force`.
