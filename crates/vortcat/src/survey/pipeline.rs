@@ -250,13 +250,19 @@ mod tests {
     #[test]
     fn guess_uses_the_peak_and_the_sense() {
         let g = initial_guess(&candidate());
-        assert_eq!(g.centre.map(f64::to_bits), [1.1_f64.to_bits(), 2.1_f64.to_bits()]);
+        assert_eq!(
+            g.centre.map(f64::to_bits),
+            [1.1_f64.to_bits(), 2.1_f64.to_bits()]
+        );
         assert!(matches!(g.circulation, CirculationGuess::Sense(s) if s < 0.0));
         let mut c = candidate();
         c.peak = [f64::NAN, 2.0];
         c.sense = 0;
         let g = initial_guess(&c);
-        assert_eq!(g.centre.map(f64::to_bits), [1.0_f64.to_bits(), 2.0_f64.to_bits()]);
+        assert_eq!(
+            g.centre.map(f64::to_bits),
+            [1.0_f64.to_bits(), 2.0_f64.to_bits()]
+        );
         assert!(matches!(g.circulation, CirculationGuess::FromData));
     }
 
