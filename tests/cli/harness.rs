@@ -17,6 +17,11 @@ where
     let out = Command::new(env!("CARGO_BIN_EXE_vortcat"))
         .args(args)
         .env_remove("RUST_BACKTRACE")
+        // A test run inside a SLURM job must not pick up its array variables.
+        .env_remove("SLURM_ARRAY_TASK_ID")
+        .env_remove("SLURM_ARRAY_TASK_MIN")
+        .env_remove("SLURM_ARRAY_TASK_MAX")
+        .env_remove("SLURM_ARRAY_TASK_COUNT")
         .output()
         .expect("run vortcat");
     Run {

@@ -4,4 +4,5 @@
 mod bad_input;
 mod harness;
 mod inspect;
+mod merge;
 mod survey;

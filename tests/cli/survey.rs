@@ -283,3 +283,67 @@ fn no_inputs_and_bad_usage() {
     assert_eq!(run.code, 1);
     assert!(run.stderr.contains("detection.criterion"), "{}", run.stderr);
 }
+
+#[test]
+fn ctrl_c_stops_cleanly_and_leaves_a_resumable_state() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 40, &["--format", "hdf5"]);
+    let reference = dir.path().join("reference");
+    assert_eq!(survey(&[&data], &reference, &["--threads", "2"]).code, 0);
+    let out = dir.path().join("interrupted");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
+        .args([
+            "survey",
+            data.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--threads",
+            "1",
+            "--progress",
+            "none",
+        ])
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let deadline = Instant::now() + Duration::from_secs(60);
+    while std::fs::read_dir(out.join("parts"))
+        .map(|d| d.count())
+        .unwrap_or(0)
+        < 2
+        && Instant::now() < deadline
+    {
+        if child.try_wait().unwrap().is_some() {
+            break;
+        }
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    let interrupted = child.try_wait().unwrap().is_none();
+    if interrupted {
+        // SIGINT, as Ctrl-C sends it.
+        let status = Command::new("kill")
+            .args(["-INT", &child.id().to_string()])
+            .status()
+            .unwrap();
+        assert!(status.success());
+    }
+    let output = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    if interrupted && output.status.code() == Some(130) {
+        assert!(stderr.contains("run the same command again"), "{stderr}");
+        assert!(
+            !out.join("run.json").exists(),
+            "an interrupted survey has no final manifest"
+        );
+    } else {
+        // The survey finished before the signal arrived: nothing to interrupt on this machine.
+        assert_eq!(output.status.code(), Some(0), "{stderr}");
+    }
+    let run = survey(&[&data], &out, &["--threads", "2"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert_eq!(
+        std::fs::read(out.join("catalog.csv")).unwrap(),
+        std::fs::read(reference.join("catalog.csv")).unwrap()
+    );
+}

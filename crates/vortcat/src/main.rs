@@ -10,6 +10,7 @@ use clap::{Parser, Subcommand};
 mod config;
 mod input;
 mod inspect;
+mod merge;
 mod plan;
 mod survey;
 mod synth;
@@ -28,6 +29,8 @@ enum Command {
     Inspect(inspect::InspectArgs),
     /// Find and fit every vortex in many snapshots; write a per-vortex catalog.
     Survey(survey::SurveyArgs),
+    /// Combine the shard folders of a sharded survey into one catalog, after checking completeness.
+    Merge(merge::MergeArgs),
     /// Write synthetic snapshots with a known vortex population and its truth table.
     Synth(synth::SynthArgs),
 }
@@ -40,6 +43,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Inspect(args) => inspect::run(args),
         Command::Survey(args) => survey::run(args),
+        Command::Merge(args) => merge::run(args),
         Command::Synth(args) => synth::run(args),
     };
     match result {

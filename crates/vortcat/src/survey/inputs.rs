@@ -115,6 +115,22 @@ fn hash_file(path: &Path, hasher: &mut Sha256) -> anyhow::Result<u64> {
     Ok(total)
 }
 
+/// Size in bytes of a source (sum over a folder's files); 0 when it cannot be read.
+pub fn size(path: &Path) -> u64 {
+    if path.is_dir() {
+        std::fs::read_dir(path)
+            .map(|d| {
+                d.filter_map(|e| e.ok()?.metadata().ok())
+                    .filter(|m| m.is_file())
+                    .map(|m| m.len())
+                    .sum()
+            })
+            .unwrap_or(0)
+    } else {
+        std::fs::metadata(path).map_or(0, |m| m.len())
+    }
+}
+
 /// Size and content hash of a source.
 pub fn describe(path: &Path) -> anyhow::Result<Source> {
     let mut hasher = Sha256::new();

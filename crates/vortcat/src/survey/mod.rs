@@ -12,7 +12,7 @@ use std::time::{Duration, Instant, SystemTime};
 use anyhow::{bail, Context};
 use clap::Args;
 use rayon::prelude::*;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
 use crate::config::Config;
@@ -22,9 +22,11 @@ use crate::plan::Plan;
 pub mod catalog;
 pub mod inputs;
 pub mod pipeline;
+pub mod shard;
 pub mod store;
 
 use catalog::CatalogRow;
+use shard::Shard;
 use store::{Part, Store, Timing};
 
 /// Exit code: finished, but some snapshots failed.
@@ -69,6 +71,10 @@ pub struct SurveyArgs {
     /// Worker threads [default: all cores].
     #[arg(long, value_name = "N", help_heading = "Run")]
     threads: Option<usize>,
+    /// Process only shard K of N (K from 0) of the snapshots, into DIR/shard-KKKK-of-NNNN;
+    /// `auto` takes K and N from SLURM's job-array variables. Combine with `vortcat merge DIR`.
+    #[arg(long, value_name = "K/N|auto", help_heading = "Run")]
+    shard: Option<String>,
     /// Continue an interrupted survey in DIR (the default when DIR holds the same survey).
     #[arg(long, help_heading = "Run")]
     resume: bool,
@@ -96,24 +102,26 @@ struct Job {
 }
 
 /// What the manifest says of a snapshot.
-#[derive(Debug, Clone, Serialize)]
-struct SnapshotStatus {
-    snapshot: String,
-    status: String,
-    error: Option<String>,
-    candidates: usize,
-    vortices: usize,
-    flagged: usize,
-    timing: Timing,
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub(crate) struct SnapshotStatus {
+    pub snapshot: String,
+    pub status: String,
+    pub error: Option<String>,
+    pub candidates: usize,
+    pub vortices: usize,
+    pub flagged: usize,
+    pub timing: Timing,
 }
 
-#[derive(Debug, Clone, Serialize)]
-struct InputRecord {
-    path: String,
-    bytes: u64,
-    sha256: String,
-    snapshots: usize,
-    error: Option<String>,
+/// One input as the manifest records it.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub(crate) struct InputRecord {
+    pub path: String,
+    pub bytes: u64,
+    /// Content hash; empty for an input this shard did not read.
+    pub sha256: String,
+    pub snapshots: usize,
+    pub error: Option<String>,
 }
 
 fn resolve_config(args: &SurveyArgs) -> anyhow::Result<Config> {
@@ -240,7 +248,17 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         .build()
         .context("cannot start the worker threads")?;
 
-    // Inputs: expand, hash, count snapshots.
+    let shard = args
+        .shard
+        .as_deref()
+        .map(|text| Shard::parse(text, |k| std::env::var(k).ok()))
+        .transpose()?;
+    let out = match shard {
+        Some(s) => out.join(s.folder()),
+        None => out,
+    };
+
+    // Inputs: expand and count snapshots (headers only), then hash the files this run reads.
     let paths = inputs::expand(&args.inputs)?;
     let config_sha = config_hash(&config_toml);
     std::fs::create_dir_all(&out)
@@ -248,45 +266,58 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     check_previous(&out, &config_sha, args.force)?;
     let store = Store::open(&out)?;
     store::write_atomic(&out.join("config.toml"), config_toml.as_bytes())?;
+    // run.json marks a finished run; until this run finishes, the folder is partial.
+    let _ = std::fs::remove_file(out.join("run.json"));
 
-    let records: Vec<InputRecord> = pool.install(|| {
+    let mut records: Vec<InputRecord> = pool.install(|| {
         paths
             .par_iter()
             .map(|p| {
                 let path = display_path(p);
-                let described = inputs::describe(p);
-                let counted = vortcat_field::open(p, &plan.input).map(|r| r.len());
-                match (described, counted) {
-                    (Ok(d), Ok(n)) => InputRecord {
+                let bytes = inputs::size(p);
+                match vortcat_field::open(p, &plan.input) {
+                    Ok(r) => InputRecord {
                         path,
-                        bytes: d.bytes,
-                        sha256: d.sha256,
-                        snapshots: n,
+                        bytes,
+                        sha256: String::new(),
+                        snapshots: r.len(),
                         error: None,
                     },
-                    (Ok(d), Err(e)) => InputRecord {
+                    Err(e) => InputRecord {
                         path,
-                        bytes: d.bytes,
-                        sha256: d.sha256,
-                        snapshots: 0,
-                        error: Some(e.to_string()),
-                    },
-                    (Err(e), _) => InputRecord {
-                        path,
-                        bytes: 0,
+                        bytes,
                         sha256: String::new(),
                         snapshots: 0,
-                        error: Some(crate::one_line(&e)),
+                        error: Some(e.to_string()),
                     },
                 }
             })
             .collect()
     });
-    let jobs: Vec<Job> = records
+    let all_jobs: Vec<Job> = records
         .iter()
         .enumerate()
         .flat_map(|(s, r)| (0..r.snapshots).map(move |index| Job { source: s, index }))
         .collect();
+    let snapshot_set = snapshot_set_hash(&records);
+    let jobs: Vec<Job> = match shard {
+        Some(s) => all_jobs[s.range(all_jobs.len())].to_vec(),
+        None => all_jobs.clone(),
+    };
+    let mine: std::collections::BTreeSet<usize> = jobs.iter().map(|j| j.source).collect();
+    pool.install(|| {
+        records.par_iter_mut().enumerate().for_each(|(i, r)| {
+            // Unreadable inputs are hashed too (the manifest identifies them), by shard 0 only.
+            let hash_it =
+                mine.contains(&i) || (r.error.is_some() && shard.is_none_or(|s| s.index == 0));
+            if hash_it {
+                match inputs::describe(Path::new(&r.path)) {
+                    Ok(d) => r.sha256 = d.sha256,
+                    Err(e) => r.error = Some(crate::one_line(&e)),
+                }
+            }
+        })
+    });
     let pending: Vec<&Job> = jobs
         .iter()
         .filter(|j| {
@@ -393,57 +424,46 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         });
         rows.extend(part.rows);
     }
-    let input_failures: Vec<&InputRecord> = records.iter().filter(|r| r.error.is_some()).collect();
-    let failed_snapshots = statuses.iter().filter(|s| s.status != "done").count();
     let units = records
         .iter()
         .find(|r| r.error.is_none())
         .and_then(|r| vortcat_field::open(Path::new(&r.path), &plan.input).ok())
         .map(|r| r.info().grid.units().clone())
         .unwrap_or_default();
-    catalog::write_csv(&out.join("catalog.csv"), &rows)?;
-    catalog::write_jsonl(&out.join("catalog.jsonl"), &rows)?;
-    catalog::write_units(
-        &out.join("units.csv"),
-        &units.length,
-        &units.velocity,
-        plan.detection.criterion().name(),
-    )?;
-    let ended_at = SystemTime::now();
-    let summary = serde_json::json!({
-        "snapshots": jobs.len(),
-        "snapshots_done": jobs.len() - failed_snapshots,
-        "snapshots_failed": failed_snapshots,
-        "inputs_failed": input_failures.len(),
-        "vortices": rows.len(),
-        "vortices_flagged": rows.iter().filter(|r| !r.flags.is_empty()).count(),
-        "seconds": started.elapsed().as_secs_f64(),
-        "per_snapshot": statuses,
-    });
-    store::write_atomic(
-        &out.join("summary.json"),
-        (serde_json::to_string_pretty(&summary)? + "\n").as_bytes(),
-    )?;
-    let manifest = serde_json::json!({
-        "tool": "vortcat",
-        "version": env!("CARGO_PKG_VERSION"),
-        "git_commit": option_env!("VORTCAT_GIT_COMMIT").unwrap_or("unknown"),
-        "command": std::env::args().collect::<Vec<_>>(),
-        "config": config,
-        "config_sha256": config_sha,
-        "inputs": records,
-        "snapshots": statuses.iter().map(|s| serde_json::json!({
-            "snapshot": s.snapshot, "status": s.status, "error": s.error,
-        })).collect::<Vec<_>>(),
-        "started": humantime::format_rfc3339_seconds(started_at).to_string(),
-        "ended": humantime::format_rfc3339_seconds(ended_at).to_string(),
-        "threads": threads,
-        "resumed_snapshots": skipped,
-    });
-    store::write_atomic(
-        &out.join("run.json"),
-        (serde_json::to_string_pretty(&manifest)? + "\n").as_bytes(),
-    )?;
+    // Input failures are reported by the unsharded run and by shard 0 only, so that merged
+    // shards count each once.
+    let reports_inputs = shard.is_none_or(|s| s.index == 0);
+    let assembled = Assembled {
+        rows,
+        statuses,
+        records,
+        config: config.clone(),
+        config_sha: config_sha.clone(),
+        units,
+    };
+    let meta = RunMeta {
+        started_at,
+        seconds: started.elapsed().as_secs_f64(),
+        threads,
+        resumed: skipped,
+        shard,
+        snapshot_set,
+        reports_inputs,
+    };
+    write_outputs(&out, &assembled, &meta)?;
+    let Assembled {
+        rows,
+        statuses,
+        records,
+        units,
+        ..
+    } = assembled;
+    let input_failures: Vec<&InputRecord> = if reports_inputs {
+        records.iter().filter(|r| r.error.is_some()).collect()
+    } else {
+        Vec::new()
+    };
+    let failed_snapshots = statuses.iter().filter(|s| s.status != "done").count();
 
     for r in &input_failures {
         eprintln!("vortcat: error: {}", r.error.as_deref().unwrap_or(""));
@@ -469,6 +489,107 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     })
+}
+
+/// Everything a survey (or a merge of shards) writes.
+pub(crate) struct Assembled {
+    pub rows: Vec<CatalogRow>,
+    pub statuses: Vec<SnapshotStatus>,
+    pub records: Vec<InputRecord>,
+    pub config: Config,
+    pub config_sha: String,
+    pub units: vortcat_field::Units,
+}
+
+/// Facts about the run itself, for the manifest.
+pub(crate) struct RunMeta {
+    pub started_at: SystemTime,
+    pub seconds: f64,
+    pub threads: usize,
+    pub resumed: usize,
+    pub shard: Option<Shard>,
+    /// Number of snapshots of the whole survey and the hash of their list.
+    pub snapshot_set: (usize, String),
+    /// Whether this run's manifest counts unreadable inputs as failures.
+    pub reports_inputs: bool,
+}
+
+/// This process's peak resident memory (Linux `VmHWM`), in MiB; `None` elsewhere.
+fn peak_rss_mib() -> Option<f64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kib: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib / 1024.0)
+}
+
+/// The identity of the whole survey's snapshot list: every input with size and snapshot count.
+fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
+    let mut h = Sha256::new();
+    let mut total = 0;
+    for r in records {
+        h.update(format!("{}\0{}\0{}\n", r.path, r.bytes, r.snapshots).as_bytes());
+        total += r.snapshots;
+    }
+    (total, inputs::hex(&h.finalize()))
+}
+
+/// Writes catalog.csv, catalog.jsonl, units.csv, summary.json and run.json.
+pub(crate) fn write_outputs(out: &Path, a: &Assembled, meta: &RunMeta) -> anyhow::Result<()> {
+    let rows = &a.rows;
+    catalog::write_csv(&out.join("catalog.csv"), rows)?;
+    catalog::write_jsonl(&out.join("catalog.jsonl"), rows)?;
+    catalog::write_units(
+        &out.join("units.csv"),
+        &a.units.length,
+        &a.units.velocity,
+        &a.config.detection.criterion,
+    )?;
+    let failed = a.statuses.iter().filter(|s| s.status != "done").count();
+    let input_failures = if meta.reports_inputs {
+        a.records.iter().filter(|r| r.error.is_some()).count()
+    } else {
+        0
+    };
+    let summary = serde_json::json!({
+        "snapshots": a.statuses.len(),
+        "snapshots_done": a.statuses.len() - failed,
+        "snapshots_failed": failed,
+        "inputs_failed": input_failures,
+        "vortices": rows.len(),
+        "vortices_flagged": rows.iter().filter(|r| !r.flags.is_empty()).count(),
+        "seconds": meta.seconds,
+        "peak_rss_mib": peak_rss_mib(),
+        "per_snapshot": a.statuses,
+    });
+    store::write_atomic(
+        &out.join("summary.json"),
+        (serde_json::to_string_pretty(&summary)? + "\n").as_bytes(),
+    )?;
+    let manifest = serde_json::json!({
+        "tool": "vortcat",
+        "version": env!("CARGO_PKG_VERSION"),
+        "git_commit": option_env!("VORTCAT_GIT_COMMIT").unwrap_or("unknown"),
+        "command": std::env::args().collect::<Vec<_>>(),
+        "config": a.config,
+        "config_sha256": a.config_sha,
+        "inputs": a.records,
+        "snapshots": a.statuses.iter().map(|s| serde_json::json!({
+            "snapshot": s.snapshot, "status": s.status, "error": s.error,
+        })).collect::<Vec<_>>(),
+        "started": humantime::format_rfc3339_seconds(meta.started_at).to_string(),
+        "ended": humantime::format_rfc3339_seconds(SystemTime::now()).to_string(),
+        "threads": meta.threads,
+        "resumed_snapshots": meta.resumed,
+        "shard": meta.shard,
+        "survey_snapshots": meta.snapshot_set.0,
+        "survey_snapshots_sha256": meta.snapshot_set.1,
+        "complete": true,
+    });
+    store::write_atomic(
+        &out.join("run.json"),
+        (serde_json::to_string_pretty(&manifest)? + "\n").as_bytes(),
+    )?;
+    Ok(())
 }
 
 fn median(mut values: Vec<f64>) -> Option<f64> {

@@ -138,6 +138,24 @@ mod tests {
     }
 
     #[test]
+    fn floats_survive_the_json_round_trip_exactly() {
+        // Resumed and merged catalogs are rebuilt from JSON: every f64 must parse back to the
+        // same bits (serde_json's float_roundtrip feature; without it this value came back one
+        // ulp off).
+        for x in [
+            4.705_580_398_364_027e-227,
+            0.1,
+            1.0 / 3.0,
+            f64::MIN_POSITIVE,
+            2.5e300,
+        ] {
+            let text = serde_json::to_string(&x).unwrap();
+            let back: f64 = serde_json::from_str(&text).unwrap();
+            assert_eq!(back.to_bits(), x.to_bits(), "{text}");
+        }
+    }
+
+    #[test]
     fn parts_round_trip_and_config_changes_invalidate() {
         let dir = tempfile::tempdir().unwrap();
         let store = Store::open(dir.path()).unwrap();

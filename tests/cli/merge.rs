@@ -1,0 +1,165 @@
+//! Sharded surveys and `vortcat merge`: the merged catalog equals a single-process survey, and
+//! merge refuses missing, duplicated, partial and mismatched shards with a clear message.
+
+use std::path::Path;
+
+use crate::harness::vortcat;
+
+fn synth(dir: &Path, snapshots: usize) {
+    let n = snapshots.to_string();
+    let run = vortcat([
+        "synth",
+        "--out",
+        dir.to_str().unwrap(),
+        "--snapshots",
+        &n,
+        "--nx",
+        "96",
+        "--ny",
+        "64",
+        "--format",
+        "hdf5",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+}
+
+fn shard(data: &Path, out: &Path, k: usize, n: usize, extra: &[&str]) {
+    let spec = format!("{k}/{n}");
+    let mut args = vec![
+        "survey",
+        data.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--shard",
+        spec.as_str(),
+        "--progress",
+        "none",
+    ];
+    args.extend_from_slice(extra);
+    let run = vortcat(args);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+}
+
+fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let e = e.unwrap();
+        let target = to.join(e.file_name());
+        if e.path().is_dir() {
+            copy_dir(&e.path(), &target);
+        } else {
+            std::fs::copy(e.path(), target).unwrap();
+        }
+    }
+}
+
+#[test]
+fn merged_shards_equal_a_single_survey() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 7); // one HDF5 stack: shards split it by time index
+    let single = dir.path().join("single");
+    let run = vortcat([
+        "survey",
+        data.to_str().unwrap(),
+        "--out",
+        single.to_str().unwrap(),
+        "--progress",
+        "none",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let sharded = dir.path().join("sharded");
+    for k in 0..4 {
+        shard(&data, &sharded, k, 4, &[]);
+    }
+    let run = vortcat(["merge", sharded.to_str().unwrap()]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    for f in ["catalog.csv", "catalog.jsonl"] {
+        assert_eq!(
+            std::fs::read(single.join(f)).unwrap(),
+            std::fs::read(sharded.join(f)).unwrap(),
+            "{f}"
+        );
+    }
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(sharded.join("run.json")).unwrap()).unwrap();
+    assert_eq!(m["snapshots"].as_array().unwrap().len(), 7);
+    assert_eq!(m["inputs"][0]["sha256"].as_str().unwrap().len(), 64);
+}
+
+#[test]
+fn merge_refuses_incomplete_or_inconsistent_shards() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth(&data, 5);
+    let sharded = dir.path().join("sharded");
+    for k in 0..3 {
+        shard(&data, &sharded, k, 3, &[]);
+    }
+
+    // Missing: shard 2 removed. The message names it and the command that reruns it.
+    let moved = dir.path().join("aside");
+    std::fs::rename(sharded.join("shard-0002-of-0003"), &moved).unwrap();
+    let run = vortcat(["merge", sharded.to_str().unwrap()]);
+    assert_eq!(run.code, 1);
+    assert!(
+        run.stderr.contains("2 (missing)") && run.stderr.contains("--shard 2/3"),
+        "{}",
+        run.stderr
+    );
+    std::fs::rename(&moved, sharded.join("shard-0002-of-0003")).unwrap();
+
+    // Partial: a shard without its final manifest (killed before it finished).
+    let run_json = sharded.join("shard-0001-of-0003/run.json");
+    let saved = std::fs::read(&run_json).unwrap();
+    std::fs::remove_file(&run_json).unwrap();
+    let run = vortcat(["merge", sharded.to_str().unwrap()]);
+    assert_eq!(run.code, 1);
+    assert!(run.stderr.contains("1 (partial)"), "{}", run.stderr);
+    std::fs::write(&run_json, saved).unwrap();
+
+    // Duplicated: the same shard given twice.
+    let other = dir.path().join("copy/shard-0000-of-0003");
+    copy_dir(&sharded.join("shard-0000-of-0003"), &other);
+    let run = vortcat([
+        "merge",
+        sharded.to_str().unwrap(),
+        other.to_str().unwrap(),
+        "--out",
+        dir.path().join("m").to_str().unwrap(),
+    ]);
+    assert_eq!(run.code, 1);
+    assert!(
+        run.stderr.contains("shard 0 of 3 appears 2 times"),
+        "{}",
+        run.stderr
+    );
+
+    // Mismatched config: shard 1 rerun elsewhere with another criterion, then swapped in.
+    let elsewhere = dir.path().join("elsewhere");
+    shard(&data, &elsewhere, 1, 3, &["--criterion", "q"]);
+    std::fs::remove_dir_all(sharded.join("shard-0001-of-0003")).unwrap();
+    copy_dir(
+        &elsewhere.join("shard-0001-of-0003"),
+        &sharded.join("shard-0001-of-0003"),
+    );
+    let run = vortcat(["merge", sharded.to_str().unwrap()]);
+    assert_eq!(run.code, 1);
+    assert!(run.stderr.contains("different config"), "{}", run.stderr);
+    assert_eq!(run.stderr.lines().count(), 1, "{}", run.stderr);
+}
+
+#[test]
+fn shard_auto_needs_slurm_variables() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = vortcat([
+        "survey",
+        dir.path().to_str().unwrap(),
+        "--out",
+        dir.path().join("o").to_str().unwrap(),
+        "--shard",
+        "auto",
+    ]);
+    assert_eq!(run.code, 1);
+    assert!(run.stderr.contains("SLURM_ARRAY_TASK_ID"), "{}", run.stderr);
+}
