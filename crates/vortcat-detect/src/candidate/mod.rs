@@ -244,7 +244,7 @@ fn centroid_and_peak(
     let mut best = region[0];
     let mut best_acc: Option<usize> = None;
     for &p in region {
-        if accurate(r.cells[p]) && best_acc.map_or(true, |b| r.strength[p] > r.strength[b]) {
+        if accurate(r.cells[p]) && best_acc.is_none_or(|b| r.strength[p] > r.strength[b]) {
             best_acc = Some(p);
         }
         let w = r.strength[p] - shift;
