@@ -54,7 +54,9 @@ pub mod snapshot;
 pub mod spec;
 
 pub use error::FieldError;
-pub use format::{open, ArrayInfo, GridOrigin, SnapshotReader, Snapshots, SourceInfo};
+pub use format::{
+    open, ArrayInfo, GridOrigin, SnapshotReader, Snapshots, SourceInfo, VolumePlanes,
+};
 pub use grid::{Axis, Grid, Units, DEFAULT_UNIFORM_TOLERANCE};
 pub use snapshot::{Field, PlaneField, Snapshot, SnapshotId, VolumeField};
 pub use spec::{FormatHint, Geometry, InputSpec, Layout, TimeAxis};

@@ -423,6 +423,119 @@ impl<S: ArrayStore> SnapshotReader for ArrayReader<S> {
         let path = self.path.clone();
         self.read_inner(index).map_err(|e| e.in_file(path))
     }
+
+    fn read_volume_planes(
+        &mut self,
+        index: usize,
+        z: std::ops::Range<usize>,
+    ) -> Result<super::VolumePlanes, FieldError> {
+        let path = self.path.clone();
+        self.read_planes_inner(index, z)
+            .map_err(|e| e.in_file(path))
+    }
+}
+
+impl<S: ArrayStore> ArrayReader<S> {
+    /// Reads z-planes of one volume snapshot, block by block from the store (separate
+    /// component arrays); stacked-component arrays are read whole and cut.
+    fn read_planes_inner(
+        &mut self,
+        index: usize,
+        z: std::ops::Range<usize>,
+    ) -> Result<super::VolumePlanes, FieldError> {
+        if self.spec_geometry != Geometry::Volume {
+            return Err(FieldError::WrongDimension {
+                expected: 3,
+                found: 2,
+            });
+        }
+        if index >= self.info.snapshots {
+            return Err(FieldError::IndexOutOfRange {
+                index,
+                len: self.info.snapshots,
+            });
+        }
+        let shape = self.info.grid.shape();
+        let nz = shape[0];
+        if z.start >= z.end || z.end > nz {
+            return Err(FieldError::IndexOutOfRange {
+                index: z.end.saturating_sub(1),
+                len: nz,
+            });
+        }
+        let (u, v, w) = match self.components.clone() {
+            Components::Separate { u, v, w: Some(w) } => (u, v, w),
+            Components::Separate { w: None, .. } => {
+                return Err(FieldError::Missing {
+                    kind: "array",
+                    name: "w (a volume needs three components)".into(),
+                    available: self.info.arrays.iter().map(|a| a.name.clone()).collect(),
+                })
+            }
+            Components::Stacked { .. } => {
+                // One array holding all components: read the snapshot and cut (not streamed).
+                let snapshot = self.read_inner(index)?;
+                let Field::Volume(f) = snapshot.field else {
+                    return Err(FieldError::WrongDimension {
+                        expected: 3,
+                        found: 2,
+                    });
+                };
+                let cut =
+                    |a: &ndarray::Array3<f32>| a.slice(ndarray::s![z.clone(), .., ..]).to_owned();
+                return Ok(super::VolumePlanes {
+                    z: z.clone(),
+                    u: cut(f.u()),
+                    v: cut(f.v()),
+                    w: cut(f.w()),
+                    flagged: Some(
+                        f.valid()
+                            .slice(ndarray::s![z.clone(), .., ..])
+                            .mapv(|ok| !ok),
+                    ),
+                });
+            }
+        };
+        let mut start = vec![z.start, 0, 0];
+        let mut count = vec![z.end - z.start, shape[1], shape[2]];
+        if let Some(t) = self.time_axis {
+            start.insert(t, index);
+            count.insert(t, 1);
+        }
+        let dims = (z.end - z.start, shape[1], shape[2]);
+        let mut read = |name: &str| -> Result<ndarray::Array3<f32>, FieldError> {
+            let a = self.store.read_block_f32(name, &start, &count)?;
+            let a = match self.time_axis {
+                Some(t) => a.index_axis_move(NdAxis(t), 0),
+                None => a,
+            };
+            a.as_standard_layout()
+                .into_owned()
+                .into_shape_with_order(dims)
+                .map_err(|e| FieldError::Corrupt(format!("unexpected block shape: {e}")))
+        };
+        let (u, v, w) = (read(&u)?, read(&v)?, read(&w)?);
+        for (name, a) in [("u", &u), ("v", &v), ("w", &w)] {
+            let infinite = a.iter().filter(|x| x.is_infinite()).count();
+            if infinite > 0 {
+                return Err(FieldError::NonFinite {
+                    component: name.to_string(),
+                    count: infinite,
+                });
+            }
+        }
+        let flagged = match self.mask.clone() {
+            Some(m) => Some(read(&m)?.mapv(|x| x != 0.0)),
+            None => None,
+        };
+        Ok(super::VolumePlanes {
+            z,
+            u,
+            v,
+            w,
+            flagged,
+        })
+    }
 }
 
 impl<S: ArrayStore> ArrayReader<S> {

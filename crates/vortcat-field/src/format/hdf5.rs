@@ -21,7 +21,7 @@ use hdf5::types::{FloatSize, IntSize, TypeDescriptor, VarLenAscii, VarLenUnicode
 use hdf5::{Conversion, Dataset, File, Group};
 use ndarray::{ArrayD, IxDyn};
 
-use super::{find, ArrayInfo, ArrayStore};
+use super::{check_block, find, ArrayInfo, ArrayStore};
 use crate::error::FieldError;
 use crate::spec::{InputSpec, Layout};
 
@@ -295,6 +295,69 @@ impl ArrayStore for Hdf5Store {
             .conversion(Conversion::Soft)
             .read_slice::<f64, _, IxDyn>(selection)?;
         Ok(self.finish(name, a))
+    }
+
+    fn read_block_f32(
+        &mut self,
+        name: &str,
+        start: &[usize],
+        count: &[usize],
+    ) -> Result<ArrayD<f32>, FieldError> {
+        let ds = self.dataset(name)?;
+        let stored = ds.shape();
+        let rank = stored.len();
+        let mut logical = stored.clone();
+        if self.reversed {
+            logical.reverse();
+        }
+        check_block(name, &logical, start, count)?;
+        let slices: Vec<hdf5::SliceOrIndex> = (0..rank)
+            .map(|k| {
+                let l = if self.reversed { rank - 1 - k } else { k };
+                hdf5::SliceOrIndex::SliceCount {
+                    start: start[l],
+                    step: 1,
+                    count: count[l],
+                    block: 1,
+                }
+            })
+            .collect();
+        check_size(name, count)?;
+        let selection = hdf5::Selection::from(hdf5::Hyperslab::from(slices));
+        let mut a: ArrayD<f32> = ds
+            .as_reader()
+            .conversion(Conversion::Soft)
+            .read_slice::<f32, _, IxDyn>(selection)?;
+        // The same missing-data markers as `finish`, compared in the precision they are read.
+        let mut markers: Vec<f32> = ["_FillValue", "missing_value"]
+            .iter()
+            .filter_map(|k| self.attr_f64(Some(name), k))
+            .map(|m| m as f32)
+            .collect();
+        if let Some(fill) = ds.dcpl().ok().and_then(|p| {
+            (p.fill_value_defined() == hdf5::plist::dataset_create::FillValue::UserDefined)
+                .then(|| p.fill_value_as::<f32>())
+                .flatten()
+        }) {
+            if fill != 0.0 && fill.is_finite() {
+                markers.push(fill);
+            }
+        }
+        if !markers.is_empty() {
+            // Exact comparison is intended: a fill value is a bit pattern, not a measurement.
+            a.mapv_inplace(|x| {
+                if markers.iter().any(|m| m.to_bits() == x.to_bits()) {
+                    f32::NAN
+                } else {
+                    x
+                }
+            });
+        }
+        Ok(if self.reversed {
+            a.reversed_axes().as_standard_layout().into_owned()
+        } else {
+            a
+        })
     }
 
     fn attr_f64(&self, array: Option<&str>, key: &str) -> Option<f64> {

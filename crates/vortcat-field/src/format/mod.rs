@@ -9,7 +9,9 @@
 
 use std::path::{Path, PathBuf};
 
-use ndarray::ArrayD;
+use std::ops::Range;
+
+use ndarray::{s, Array3, ArrayD, IxDyn, SliceInfoElem};
 use serde::Serialize;
 
 use crate::error::FieldError;
@@ -76,6 +78,24 @@ pub struct SourceInfo {
     pub snapshots: usize,
 }
 
+/// A block of consecutive z-planes of one volume snapshot, read without the rest of the
+/// volume (see [`SnapshotReader::read_volume_planes`]). Arrays are `[iz - z.start, iy, ix]`,
+/// `f32` as [`crate::VolumeField`] stores them. Invalid vectors are *not* blanked yet: NaN marks
+/// them in the input, `flagged` (`true` = rejected) when the file has a mask.
+#[derive(Debug, Clone)]
+pub struct VolumePlanes {
+    /// The z-planes read (global indices).
+    pub z: Range<usize>,
+    /// x-component.
+    pub u: Array3<f32>,
+    /// y-component.
+    pub v: Array3<f32>,
+    /// z-component.
+    pub w: Array3<f32>,
+    /// The mask, if the file has one.
+    pub flagged: Option<Array3<bool>>,
+}
+
 /// A source of snapshots.
 pub trait SnapshotReader: Send {
     /// What the reader found.
@@ -92,6 +112,44 @@ pub trait SnapshotReader: Send {
     /// Whether the source holds no snapshot (never true for an opened source).
     fn is_empty(&self) -> bool {
         self.len() == 0
+    }
+
+    /// Reads z-planes `z` of volume snapshot `index`, so that a volume larger than memory can
+    /// be processed in slabs. Readers of array formats read only those planes (HDF5
+    /// hyperslabs, positioned `.npy` reads); the default reads the whole snapshot and copies
+    /// the planes out. Errors: not a volume, planes out of range; every error names the file.
+    fn read_volume_planes(
+        &mut self,
+        index: usize,
+        z: Range<usize>,
+    ) -> Result<VolumePlanes, FieldError> {
+        let path = self.info().path.clone();
+        let snapshot = self.read(index)?;
+        match snapshot.field {
+            crate::Field::Volume(f) => {
+                let nz = f.u().dim().0;
+                if z.start >= z.end || z.end > nz {
+                    return Err(FieldError::IndexOutOfRange {
+                        index: z.end.saturating_sub(1),
+                        len: nz,
+                    }
+                    .in_file(path));
+                }
+                let cut = |a: &Array3<f32>| a.slice(s![z.clone(), .., ..]).to_owned();
+                Ok(VolumePlanes {
+                    z: z.clone(),
+                    u: cut(f.u()),
+                    v: cut(f.v()),
+                    w: cut(f.w()),
+                    flagged: Some(f.valid().slice(s![z.clone(), .., ..]).mapv(|ok| !ok)),
+                })
+            }
+            crate::Field::Plane(_) => Err(FieldError::WrongDimension {
+                expected: 3,
+                found: 2,
+            }
+            .in_file(path)),
+        }
     }
 }
 
@@ -122,6 +180,57 @@ pub trait ArrayStore: Send {
     fn is_single_array(&self) -> bool {
         false
     }
+    /// Reads the block `start[k]..start[k] + count[k]` of every logical axis as `f32` (the
+    /// precision of volume fields; half the memory of `f64`). The default reads the whole
+    /// array and copies the block out; stores override it to read only the block.
+    fn read_block_f32(
+        &mut self,
+        name: &str,
+        start: &[usize],
+        count: &[usize],
+    ) -> Result<ArrayD<f32>, FieldError> {
+        let all = self.read_all(name)?;
+        check_block(name, all.shape(), start, count)?;
+        let info: Vec<SliceInfoElem> = start
+            .iter()
+            .zip(count)
+            .map(|(&a, &n)| SliceInfoElem::Slice {
+                start: a as isize,
+                end: Some((a + n) as isize),
+                step: 1,
+            })
+            .collect();
+        Ok(all
+            .slice(info.as_slice())
+            .mapv(|x| x as f32)
+            .into_dimensionality::<IxDyn>()
+            .expect("dynamic rank"))
+    }
+}
+
+/// Checks that a block lies inside an array of `shape`.
+pub(crate) fn check_block(
+    name: &str,
+    shape: &[usize],
+    start: &[usize],
+    count: &[usize],
+) -> Result<(), FieldError> {
+    if start.len() != shape.len() || count.len() != shape.len() {
+        return Err(FieldError::BadLayout {
+            name: name.to_string(),
+            shape: shape.to_vec(),
+            reason: format!("a block of rank {} was asked for", start.len()),
+        });
+    }
+    for k in 0..shape.len() {
+        if count[k] == 0 || start[k] + count[k] > shape[k] {
+            return Err(FieldError::IndexOutOfRange {
+                index: start[k] + count[k].max(1) - 1,
+                len: shape[k],
+            });
+        }
+    }
+    Ok(())
 }
 
 /// Looks up an array by name; `Missing` lists what exists.

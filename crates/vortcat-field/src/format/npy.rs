@@ -17,7 +17,7 @@ use std::path::{Path, PathBuf};
 use ndarray::{ArrayD, Axis as NdAxis, IxDyn, ShapeBuilder};
 use ndarray_npy::npy::header::Header;
 
-use super::{ArrayInfo, ArrayStore};
+use super::{check_block, ArrayInfo, ArrayStore};
 use crate::error::FieldError;
 use crate::spec::InputSpec;
 
@@ -311,6 +311,58 @@ impl ArrayStore for NpyStore {
         let array = self.array(name)?;
         let values = array.read_bytes(0, array.header.data_bytes)?;
         array.header.to_array(&array.header.shape.clone(), values)
+    }
+
+    fn read_block_f32(
+        &mut self,
+        name: &str,
+        start: &[usize],
+        count: &[usize],
+    ) -> Result<ArrayD<f32>, FieldError> {
+        let array = self.array(name)?;
+        let header = &array.header;
+        check_block(name, &header.shape, start, count)?;
+        // C order: a block is one contiguous run of bytes when, for some axis p, every axis
+        // before p is a single index and every axis after p is whole (e.g. z-planes of
+        // [z][y][x], or of [t][z][y][x] at one t).
+        let rank = header.shape.len();
+        let contiguous = !header.fortran
+            && (0..rank).any(|p| {
+                (0..p).all(|k| count[k] == 1) && (p + 1..rank).all(|k| count[k] == header.shape[k])
+            });
+        if contiguous {
+            let elem = header.dtype.size() as u64;
+            let mut offset = 0u64;
+            let mut stride = 1u64;
+            for k in (0..rank).rev() {
+                offset += start[k] as u64 * stride;
+                stride *= header.shape[k] as u64;
+            }
+            let n: u64 = count.iter().map(|&c| c as u64).product();
+            let mut buf = vec![0u8; (n * elem) as usize];
+            array
+                .file
+                .read_exact_at(&mut buf, array.data_offset + offset * elem)?;
+            let values: Vec<f32> = header
+                .dtype
+                .decode(&buf)
+                .into_iter()
+                .map(|x| x as f32)
+                .collect();
+            return ArrayD::from_shape_vec(IxDyn(count), values)
+                .map_err(|e| FieldError::Corrupt(format!("data do not fit shape {count:?}: {e}")));
+        }
+        let all = self.read_all(name)?;
+        let info: Vec<ndarray::SliceInfoElem> = start
+            .iter()
+            .zip(count)
+            .map(|(&a, &n)| ndarray::SliceInfoElem::Slice {
+                start: a as isize,
+                end: Some((a + n) as isize),
+                step: 1,
+            })
+            .collect();
+        Ok(all.slice(info.as_slice()).mapv(|x| x as f32))
     }
 
     fn read_along(
