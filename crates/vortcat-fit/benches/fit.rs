@@ -3,7 +3,7 @@
 //! Window: radius 15 spacings (709 vectors), Γ = 1, rc = 5 spacings, centre 0.3 spacings off
 //! the detection, 5 % noise (Gaussian, σ = 5 % of the peak azimuthal velocity). Data-driven
 //! start ([`vortcat_fit::fit`]) with default settings. Targets (issue): 50 µs and 80 µs per fit
-//! on one core.
+//! on one core. Figures and the machine they were measured on: `docs/performance.md`, "Fitting".
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion};
 use rand::rngs::StdRng;

@@ -24,6 +24,9 @@ const RC_BOUNDS: (f64, f64) = (1e-3, 3.0);
 
 struct Setup<M> {
     problem: FitProblem<M>,
+    /// Mean velocity of the window and the total sum of squares about it.
+    mean: [f64; 2],
+    tss: f64,
     scales: Scales,
     lo: [f64; MAXP],
     hi: [f64; MAXP],
@@ -52,16 +55,7 @@ fn setup<M: VortexModel>(
     }
     let len = window.radius();
     let nf = window.len() as f64;
-    let (um, vm) = (
-        window.u().iter().sum::<f64>() / nf,
-        window.v().iter().sum::<f64>() / nf,
-    );
-    let fluct = window
-        .u()
-        .iter()
-        .zip(window.v())
-        .map(|(u, v)| (u - um).powi(2) + (v - vm).powi(2))
-        .sum::<f64>();
+    let (mean, fluct) = window_statistics(window);
     let mut vel = (fluct / nf).sqrt();
     if !(vel > 0.0 && vel.is_finite()) {
         vel = window
@@ -78,20 +72,23 @@ fn setup<M: VortexModel>(
         length: len,
         velocity: vel,
     };
+    // Multiplications by the reciprocal scales (vectorised; a division per value would cost
+    // more than a solver evaluation of the data).
+    let (inv_len, inv_vel) = (1.0 / len, 1.0 / vel);
     let problem = FitProblem {
         model: model.rescaled(len, vel),
         x: window
             .x()
             .iter()
-            .map(|x| (x - scales.origin[0]) / len)
+            .map(|x| (x - scales.origin[0]) * inv_len)
             .collect(),
         y: window
             .y()
             .iter()
-            .map(|y| (y - scales.origin[1]) / len)
+            .map(|y| (y - scales.origin[1]) * inv_len)
             .collect(),
-        u: window.u().iter().map(|u| u / vel).collect(),
-        v: window.v().iter().map(|v| v / vel).collect(),
+        u: window.u().iter().map(|u| u * inv_vel).collect(),
+        v: window.v().iter().map(|v| v * inv_vel).collect(),
         quad: settings
             .piv_averaging
             .map(|a| a.offsets(len))
@@ -130,12 +127,44 @@ fn setup<M: VortexModel>(
     }
     Ok(Setup {
         problem,
+        mean,
+        tss: fluct,
         scales,
         lo,
         hi,
         scale,
         names,
     })
+}
+
+/// Sum with four interleaved partial sums (vectorisable; fixed order, so reproducible).
+fn sum4(n: usize, f: impl Fn(usize) -> f64) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let full = n - n % 4;
+    let mut i = 0;
+    while i < full {
+        for (l, a) in acc.iter_mut().enumerate() {
+            *a += f(i + l);
+        }
+        i += 4;
+    }
+    for j in full..n {
+        acc[j - full] += f(j);
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3])
+}
+
+/// Mean velocity `[ū, v̄]` of the window and `Σ (u − ū)² + (v − v̄)²`.
+fn window_statistics(window: &Window) -> ([f64; 2], f64) {
+    let n = window.len();
+    let (u, v) = (&window.u()[..n], &window.v()[..n]);
+    let nf = n as f64;
+    let (um, vm) = (sum4(n, |i| u[i]) / nf, sum4(n, |i| v[i]) / nf);
+    let tss = sum4(n, |i| {
+        let (a, b) = (u[i] - um, v[i] - vm);
+        a * a + b * b
+    });
+    ([um, vm], tss)
 }
 
 fn to_physical(
@@ -195,14 +224,13 @@ pub fn fit<M: VortexModel>(
     own[1] = 1.0;
     own[2..2 + model.extra_start().len()].copy_from_slice(model.extra_start());
     let ratio = model.peak_radius_ratio(&own[..nm]);
-    let (g_est, rc_est) = estimate_circulation_and_radius(window, guess.centre, ratio);
+    let (g_est, rc_est) = estimate_circulation_and_radius(window, s.mean, guess.centre, ratio);
     let gamma0 = match guess.circulation {
         CirculationGuess::FromData => g_est,
         CirculationGuess::Sense(sign) => sign.signum() * g_est.abs(),
         CirculationGuess::Value(g) => g,
     };
     let rc0 = guess.core_radius.unwrap_or(rc_est);
-    let nf = window.len() as f64;
     let mut start_model = vec![gamma0, rc0];
     start_model.extend_from_slice(model.extra_start());
     // Extra parameters are given in solver units by the model; convert back for `Parameters`.
@@ -211,10 +239,7 @@ pub fn fit<M: VortexModel>(
     }
     let start = Parameters {
         centre: guess.centre,
-        convection: [
-            window.u().iter().sum::<f64>() / nf,
-            window.v().iter().sum::<f64>() / nf,
-        ],
+        convection: s.mean,
         model: start_model,
         background: settings.background_gradient.then_some([0.0; 3]),
     };
@@ -223,12 +248,12 @@ pub fn fit<M: VortexModel>(
     for k in 0..layout.n() {
         p.0[k] = p.0[k].clamp(s.lo[k], s.hi[k]);
     }
-    solve_linear(
+    let start_normal = solve_linear(
         &s.problem,
         &mut p,
         &linear_mask(model, settings.background_gradient),
     );
-    run(model, window, guess.centre, s, p, settings)
+    run(model, window, guess.centre, s, p, start_normal, settings)
 }
 
 /// Fit from a given full start vector (physical units) instead of the data-driven start; used
@@ -267,7 +292,7 @@ pub fn fit_from_start<M: VortexModel>(
     for k in 0..s.problem.layout.n() {
         p.0[k] = p.0[k].clamp(s.lo[k], s.hi[k]);
     }
-    run(model, window, detection_centre, s, p, settings)
+    run(model, window, detection_centre, s, p, None, settings)
 }
 
 /// Fit a run-time chosen [`Model`].
@@ -291,13 +316,15 @@ fn run<M: VortexModel>(
     detection_centre: [f64; 2],
     s: Setup<M>,
     p0: Params,
+    start_normal: Option<crate::solver::Normal>,
     settings: &FitSettings,
 ) -> Result<FitResult, FitError> {
     let layout = s.problem.layout;
     let n = layout.n();
     let m = 2 * window.len();
     let tolerances = [settings.ftol, settings.xtol, settings.gtol];
-    let solver = LevenbergMarquardt::new(s.lo, s.hi, n, tolerances);
+    let mut solver = LevenbergMarquardt::new(s.lo, s.hi, n, tolerances);
+    solver.start_normal = start_normal;
     let res = Executor::new(s.problem, solver)
         .configure(|st| st.param(p0).max_iters(settings.max_iterations))
         .timer(false)
@@ -314,17 +341,7 @@ fn run<M: VortexModel>(
         _ => FitStatus::Stalled,
     };
     let vel = s.scales.velocity;
-    let nf = window.len() as f64;
-    let (um, vm) = (
-        window.u().iter().sum::<f64>() / nf,
-        window.v().iter().sum::<f64>() / nf,
-    );
-    let tss = window
-        .u()
-        .iter()
-        .zip(window.v())
-        .map(|(u, v)| (u - um).powi(2) + (v - vm).powi(2))
-        .sum::<f64>();
+    let tss = s.tss;
     let rss = ne.rss * vel * vel;
     let dof = (m - n) as f64;
     let sigma2 = ne.wrss / dof;

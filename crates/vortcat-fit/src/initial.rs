@@ -3,11 +3,15 @@
 //! parameters that enter linearly (convection, circulation, Burgers strain, background gradient)
 //! by one exact linear least-squares solve at that centre and core radius.
 
+// Index loops mirror the matrix formulas of the linear solve and its transformation.
+#![allow(clippy::needless_range_loop)]
+
 use serde::{Deserialize, Serialize};
 
 use crate::error::FitError;
 use crate::linalg::{cholesky_solve, MAXP};
-use crate::model::VortexModel;
+use crate::loss::Loss;
+use crate::model::{GaussianKernel, VortexModel};
 use crate::solver::{FitProblem, Normal, Params, IM};
 use crate::window::Window;
 
@@ -92,31 +96,48 @@ const BINS: usize = 24;
 /// the model's ratio of peak radius to rc.
 pub(crate) fn estimate_circulation_and_radius(
     window: &Window,
+    mean: [f64; 2],
     centre: [f64; 2],
     peak_ratio: f64,
 ) -> (f64, f64) {
-    let n = window.len().max(1) as f64;
-    let (um, vm) = (
-        window.u().iter().sum::<f64>() / n,
-        window.v().iter().sum::<f64>() / n,
+    let [um, vm] = mean;
+    // Radius and azimuthal velocity of every sample in one branch-free (vectorised) pass, the
+    // largest radius in a second (four lanes), then the binning.
+    // max √(r²) = √(max r²) exactly (√ is monotone and correctly rounded).
+    let len = window.len();
+    let (xs, ys, us, vs) = (
+        &window.x()[..len],
+        &window.y()[..len],
+        &window.u()[..len],
+        &window.v()[..len],
     );
-    let rmax = window
-        .x()
-        .iter()
-        .zip(window.y())
-        .map(|(x, y)| ((x - centre[0]).powi(2) + (y - centre[1]).powi(2)).sqrt())
-        .fold(0.0, f64::max)
-        .max(f64::MIN_POSITIVE);
-    let mut sum = [0.0; BINS];
-    let mut cnt = [0usize; BINS];
-    let (mut line, mut line_n) = (0.0, 0usize);
-    for i in 0..window.len() {
-        let (dx, dy) = (window.x()[i] - centre[0], window.y()[i] - centre[1]);
+    let mut rs = vec![0.0; len];
+    let mut uts = vec![0.0; len];
+    for i in 0..len {
+        let (dx, dy) = (xs[i] - centre[0], ys[i] - centre[1]);
         let r = (dx * dx + dy * dy).sqrt();
+        rs[i] = r;
+        uts[i] = (-(us[i] - um) * dy + (vs[i] - vm) * dx) / r;
+    }
+    let mut lanes = [0.0f64; 4];
+    for chunk in rs.chunks(4) {
+        for (m, &r) in lanes.iter_mut().zip(chunk) {
+            *m = if r > *m { r } else { *m };
+        }
+    }
+    let rmax = lanes
+        .iter()
+        .fold(0.0, |m: f64, &r| m.max(r))
+        .max(f64::MIN_POSITIVE);
+    // Two sets of bins for even and odd samples: neighbouring samples usually fall in the same
+    // bin, and a single set would chain every addition on the previous one through memory.
+    let mut sum = [[0.0; BINS]; 2];
+    let mut cnt = [[0usize; BINS]; 2];
+    let (mut line, mut line_n) = (0.0, 0usize);
+    for (i, (&r, &ut)) in rs.iter().zip(&uts).enumerate() {
         if r <= 0.0 {
             continue;
         }
-        let ut = (-(window.u()[i] - um) * dy + (window.v()[i] - vm) * dx) / r;
         // Line integral ∮ u·dl ≈ 2π r ⟨u_θ⟩ on the outer annulus (r > 0.75 r_max).
         if r > 0.75 * rmax {
             line += 2.0 * std::f64::consts::PI * r * ut;
@@ -124,9 +145,11 @@ pub(crate) fn estimate_circulation_and_radius(
         }
         let b = ((r / rmax) * BINS as f64) as usize;
         let b = b.min(BINS - 1);
-        sum[b] += ut;
-        cnt[b] += 1;
+        sum[i & 1][b] += ut;
+        cnt[i & 1][b] += 1;
     }
+    let sum: [f64; BINS] = std::array::from_fn(|b| sum[0][b] + sum[1][b]);
+    let cnt: [usize; BINS] = std::array::from_fn(|b| cnt[0][b] + cnt[1][b]);
     let gamma = if line_n > 0 {
         line / line_n as f64
     } else {
@@ -149,15 +172,26 @@ pub(crate) fn estimate_circulation_and_radius(
 
 /// Solve exactly for the parameters flagged in `linear` (which enter the model linearly) with
 /// the others held at `p`, by one Gauss–Newton step on that subset.
+///
+/// Returns the normal equations at the updated `p` when they follow exactly from those at the
+/// old one (see [`normal_after_linear_step`]), so that the solver need not evaluate there again.
 pub(crate) fn solve_linear<M: VortexModel>(
     problem: &FitProblem<M>,
     p: &mut Params,
     linear: &[bool; MAXP],
-) {
+) -> Option<Normal> {
     let n = problem.layout.n();
     let mut ne = Normal::zero();
     problem.evaluate(p, &mut ne);
-    let idx: Vec<usize> = (0..n).filter(|&k| linear[k]).collect();
+    let mut idx = [0usize; MAXP];
+    let mut nl = 0;
+    for k in 0..n {
+        if linear[k] {
+            idx[nl] = k;
+            nl += 1;
+        }
+    }
+    let idx = &idx[..nl];
     let mut m = [[0.0; MAXP]; MAXP];
     let mut b = [0.0; MAXP];
     for (i, &ki) in idx.iter().enumerate() {
@@ -168,11 +202,123 @@ pub(crate) fn solve_linear<M: VortexModel>(
         // Tiny ridge so that a column that vanishes (e.g. no data) does not stop the solve.
         m[i][i] += 1e-12 * ne.a[ki][ki].max(1e-300);
     }
-    if cholesky_solve(&mut m, idx.len(), &mut b) {
-        for (i, &ki) in idx.iter().enumerate() {
-            p.0[ki] += b[i];
+    if !cholesky_solve(&mut m, idx.len(), &mut b) {
+        return None;
+    }
+    let old = *p;
+    let mut delta = [0.0; MAXP];
+    for (i, &ki) in idx.iter().enumerate() {
+        p.0[ki] += b[i];
+        delta[ki] = p.0[ki] - old.0[ki];
+    }
+    normal_after_linear_step(problem, &ne, &old, p, &delta)
+}
+
+/// Normal equations at `new = old + delta`, where `delta` changes only linearly entering
+/// parameters, computed from those at `old` without a pass over the data.
+///
+/// For the Gaussian-core models (Lamb–Oseen, Burgers with free γ) with the plain loss the
+/// residual is linear in the linear parameters, `r' = r + Jδ`, and every nonlinear column of the
+/// Jacobian is the circulation times a column that depends only on the nonlinear parameters,
+/// plus multiples of the convection columns (from the inflow and the background gradient at the
+/// centre): `J'_x0 = ρ (J_x0 − α_x J_uc − β_x J_vc) + α'_x J_uc + β'_x J_vc` with `ρ = Γ'/Γ`, the
+/// same for y0, and `J'_rc = ρ J_rc`. So `J' = J T` for a known `n × n` matrix `T`, and
+/// `J'ᵀJ' = Tᵀ(JᵀJ)T`, `J'ᵀr' = Tᵀ(Jᵀr + JᵀJ δ)`, `½|r'|² = ½|r|² + (Jᵀr)ᵀδ + ½ δᵀ(JᵀJ)δ`
+/// hold exactly (in rounding, to a few ulps of the terms). `None` where the structure does not
+/// hold (other models, an imposed Burgers balance, whose rc column has a part that is not
+/// proportional to Γ, robust losses, Γ = 0).
+fn normal_after_linear_step<M: VortexModel>(
+    problem: &FitProblem<M>,
+    ne: &Normal,
+    old: &Params,
+    new: &Params,
+    delta: &[f64; MAXP],
+) -> Option<Normal> {
+    let burgers = match problem.model.gaussian_kernel()? {
+        GaussianKernel::LambOseen => false,
+        GaussianKernel::BurgersFree => true,
+        _ => return None,
+    };
+    if !matches!(problem.loss, Loss::Linear) {
+        return None;
+    }
+    let layout = problem.layout;
+    let n = layout.n();
+    let (g_old, g_new) = (old.0[IM], new.0[IM]);
+    let rho = g_new / g_old;
+    if g_old == 0.0 || !rho.is_finite() {
+        return None;
+    }
+    // Coefficients of the convection columns in the centre columns: α_x, β_x, α_y, β_y.
+    let coeffs = |p: &Params| {
+        let m = if burgers { -0.5 * p.0[IM + 2] } else { 0.0 };
+        let (e1, e2, om) = if layout.background {
+            let b = layout.bg();
+            (p.0[b], p.0[b + 1], p.0[b + 2])
+        } else {
+            (0.0, 0.0, 0.0)
+        };
+        [-m - e1, -(e2 + 0.5 * om), -(e2 - 0.5 * om), -m + e1]
+    };
+    let (c0, c1) = (coeffs(old), coeffs(new));
+    let mut t = [[0.0; MAXP]; MAXP];
+    for k in 0..n {
+        t[k][k] = 1.0;
+    }
+    // Columns: x0 = 0, y0 = 1, rc = IM + 1.
+    t[0][0] = rho;
+    t[2][0] = c1[0] - rho * c0[0];
+    t[3][0] = c1[1] - rho * c0[1];
+    t[1][1] = rho;
+    t[2][1] = c1[2] - rho * c0[2];
+    t[3][1] = c1[3] - rho * c0[3];
+    t[IM + 1][IM + 1] = rho;
+    // w = g + Aδ (= J'ᵀ... before T), cost' = cost + gᵀδ + ½δᵀAδ.
+    let mut w = [0.0; MAXP];
+    let mut dquad = 0.0;
+    let mut glin = 0.0;
+    for i in 0..n {
+        let mut ad = 0.0;
+        for j in 0..n {
+            ad += ne.a[i][j] * delta[j];
+        }
+        w[i] = ne.g[i] + ad;
+        dquad += delta[i] * ad;
+        glin += ne.g[i] * delta[i];
+    }
+    let cost = ne.cost + glin + 0.5 * dquad;
+    // AT, then Tᵀ(AT).
+    let mut at = [[0.0; MAXP]; MAXP];
+    for i in 0..n {
+        for j in 0..n {
+            let mut s = 0.0;
+            for k in 0..n {
+                s += ne.a[i][k] * t[k][j];
+            }
+            at[i][j] = s;
         }
     }
+    let mut out = Normal::zero();
+    for i in 0..n {
+        let mut gi = 0.0;
+        for k in 0..n {
+            gi += t[k][i] * w[k];
+        }
+        out.g[i] = gi;
+        for j in i..n {
+            let mut s = 0.0;
+            for k in 0..n {
+                s += t[k][i] * at[k][j];
+            }
+            out.a[i][j] = s;
+            out.a[j][i] = s;
+        }
+    }
+    // Rounding can leave a cost a few ulps below zero for an exact fit.
+    out.cost = cost.max(0.0);
+    out.rss = 2.0 * out.cost;
+    out.wrss = out.rss;
+    (out.cost.is_finite() && out.g[..n].iter().all(|x| x.is_finite())).then_some(out)
 }
 
 /// Which entries of the full parameter vector enter the model linearly.

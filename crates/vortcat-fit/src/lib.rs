@@ -49,9 +49,11 @@
 
 pub mod averaging;
 pub mod error;
+mod fastmath;
 pub mod fit;
 pub mod flags;
 pub mod initial;
+mod kernel;
 mod linalg;
 pub mod loss;
 pub mod model;

@@ -126,7 +126,10 @@ pub struct FitResult {
     pub flags: Vec<Flag>,
     /// Solver iterations (accepted and rejected trial steps).
     pub iterations: u64,
-    /// Evaluations of residuals and normal equations.
+    /// Passes over the data made by the solver (residuals and normal equations in one pass).
+    /// Not counted: the pass of the exact linear start in [`crate::fit`]; for Lamb–Oseen and
+    /// free-γ Burgers with the plain loss the solver's first normal equations follow exactly
+    /// from that pass, so it makes one pass fewer than it has iterations.
     pub evaluations: u64,
     /// Valid vectors used.
     pub n_vectors: usize,

@@ -175,6 +175,15 @@ impl VortexModel for Burgers {
         }
         vel
     }
+
+    fn gaussian_kernel(&self) -> Option<super::GaussianKernel> {
+        Some(match self.balance {
+            ViscousBalance::Free => super::GaussianKernel::BurgersFree,
+            ViscousBalance::Imposed { viscosity } => {
+                super::GaussianKernel::BurgersImposed { viscosity }
+            }
+        })
+    }
 }
 
 #[cfg(test)]

@@ -46,7 +46,7 @@ pub(crate) fn gaussian_core(s: f64, a: f64) -> (f64, f64, f64) {
     let inv_a = 1.0 / a;
     let inv_a2 = inv_a * inv_a;
     let t = s * inv_a;
-    let e = (-t).exp();
+    let e = crate::fastmath::exp_nonpositive(-t);
     let dg_da = -e * inv_a2;
     if t < 1e-2 {
         // Taylor series of (1 − e^{−t})/t to t⁴ and of its derivative to t⁴; truncation errors
@@ -117,6 +117,10 @@ impl VortexModel for LambOseen {
         du[3] = -dk_drc * dy;
         dv[3] = dk_drc * dx;
         vel
+    }
+
+    fn gaussian_kernel(&self) -> Option<super::GaussianKernel> {
+        Some(super::GaussianKernel::LambOseen)
     }
 }
 

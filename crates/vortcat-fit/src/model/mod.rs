@@ -126,6 +126,33 @@ pub trait VortexModel: fmt::Debug + Clone + Send + Sync {
         du: &mut [f64],
         dv: &mut [f64],
     ) -> [f64; 2];
+
+    /// Whether the solver may evaluate this model with its specialised Gaussian-core block
+    /// kernel instead of calling [`Self::velocity_jacobian`] point by point (the same
+    /// formulas, evaluated for a block of vectors at a time so that they vectorise). An
+    /// implementation detail of the crate's Lamb–Oseen and Burgers models; the default `None`
+    /// keeps the point-by-point evaluation, which is always correct.
+    #[doc(hidden)]
+    fn gaussian_kernel(&self) -> Option<GaussianKernel> {
+        None
+    }
+}
+
+/// Which Gaussian-core model the solver's block kernel evaluates (see
+/// [`VortexModel::gaussian_kernel`]); parameters in the model's own order.
+#[doc(hidden)]
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
+pub enum GaussianKernel {
+    /// Lamb–Oseen: own parameters Γ, rc.
+    LambOseen,
+    /// Burgers with free strain rate: Γ, rc, γ.
+    BurgersFree,
+    /// Burgers with γ = 4ν/rc² imposed: Γ, rc; `viscosity` ν in the units of the model value.
+    BurgersImposed {
+        /// Kinematic viscosity ν.
+        viscosity: f64,
+    },
 }
 
 /// Velocity of an axisymmetric vortex written as `u = −K·dy + M·dx`, `v = K·dx + M·dy`, with
