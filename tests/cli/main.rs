@@ -6,3 +6,4 @@ mod harness;
 mod inspect;
 mod merge;
 mod survey;
+mod volume;

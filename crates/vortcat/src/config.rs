@@ -22,6 +22,8 @@ pub struct Config {
     pub fit: FitConfig,
     /// When a fit is flagged.
     pub flags: FlagConfig,
+    /// How vortex tubes are found in volumes (`--geometry volume`).
+    pub volume: VolumeConfig,
 }
 
 /// `[fluid]`.
@@ -144,6 +146,63 @@ impl Default for FlagConfig {
             min_r_squared: t.min_r_squared,
             max_relative_uncertainty: t.max_relative_uncertainty,
             max_centre_shift: t.max_centre_shift,
+        }
+    }
+}
+
+/// `[volume]`: the tube survey of volume snapshots (`--geometry volume`). Fits use `[fit]`
+/// and the viscosity `[fluid]`; the defaults are those of `vortcat_tube::TubeSettings`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct VolumeConfig {
+    /// `lambda2`, `q` or `swirling-strength` (planar criteria are refused).
+    pub criterion: String,
+    /// Velocity-gradient scheme: `central2`, `central4`, `least-squares`.
+    pub gradient: String,
+    /// Threshold rule: `default` (the criterion's own), `absolute` or `rms`.
+    pub threshold: String,
+    /// Value of the threshold rule (ignored for `default`).
+    pub threshold_value: Option<f64>,
+    /// Smallest tube region, in voxels.
+    pub min_voxels: usize,
+    /// z-planes read at a time (the memory knob); results do not depend on it.
+    pub slab_planes: usize,
+    /// Periodic axes, any of `x`, `y`, `z`.
+    pub periodic: Vec<String>,
+    /// Shortest core line kept, in length units [default: 6 grid spacings].
+    pub min_length: Option<f64>,
+    /// Distance between stations along the core line, in length units [default: 2 grid
+    /// spacings].
+    pub station_spacing: Option<f64>,
+    /// Kolmogorov length scale η (length units), with `kolmogorov_tau`.
+    pub kolmogorov_eta: Option<f64>,
+    /// Kolmogorov time scale τ_η (s), with `kolmogorov_eta`.
+    pub kolmogorov_tau: Option<f64>,
+    /// Compute η and τ_η from the field's dissipation ε = 2ν⟨S:S⟩ (needs fluid.viscosity).
+    pub compute_kolmogorov: bool,
+}
+
+impl Default for VolumeConfig {
+    fn default() -> Self {
+        let d = vortcat_tube::TubeSettings::default();
+        Self {
+            criterion: d.criterion.name().to_string(),
+            gradient: d.scheme.name().to_string(),
+            threshold: "default".into(),
+            threshold_value: None,
+            min_voxels: d.min_voxels,
+            slab_planes: d.slab_planes,
+            periodic: ["x", "y", "z"]
+                .iter()
+                .zip(d.periodic)
+                .filter(|(_, p)| *p)
+                .map(|(a, _)| a.to_string())
+                .collect(),
+            min_length: d.min_length,
+            station_spacing: d.station_spacing,
+            kolmogorov_eta: None,
+            kolmogorov_tau: None,
+            compute_kolmogorov: false,
         }
     }
 }

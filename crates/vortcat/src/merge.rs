@@ -256,6 +256,8 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
 
     // Stitch, in shard order: shards are contiguous blocks of the survey's snapshot order.
     let mut rows: Vec<CatalogRow> = Vec::new();
+    let mut stations = Vec::new();
+    let mut tubes = Vec::new();
     let mut statuses: Vec<SnapshotStatus> = Vec::new();
     let mut records = reference.inputs.clone();
     for k in 0..count {
@@ -270,6 +272,12 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
                 })?,
             );
         }
+        stations.extend(crate::survey::volume::read_jsonl::<
+            crate::survey::volume::StationRow,
+        >(&s.path.join("stations.jsonl"))?);
+        tubes.extend(crate::survey::volume::read_jsonl::<
+            crate::survey::volume::TubeRow,
+        >(&s.path.join("tubes.jsonl"))?);
         let summary: Summary = read_json(&s.path.join("summary.json"))?;
         statuses.extend(summary.per_snapshot);
         // Each shard hashed the inputs it read: take every hash from the shard that has it.
@@ -302,6 +310,8 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
     let input_failures = records.iter().filter(|r| r.error.is_some()).count();
     let assembled = Assembled {
         rows,
+        stations,
+        tubes,
         statuses,
         records,
         config: reference.config.clone(),

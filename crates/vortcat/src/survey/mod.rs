@@ -24,6 +24,7 @@ pub mod inputs;
 pub mod pipeline;
 pub mod shard;
 pub mod store;
+pub mod volume;
 
 use catalog::CatalogRow;
 use shard::Shard;
@@ -404,6 +405,8 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
 
     // Assemble, in the stable order of inputs and indices.
     let mut rows: Vec<CatalogRow> = Vec::new();
+    let mut stations = Vec::new();
+    let mut tubes = Vec::new();
     let mut statuses = Vec::new();
     for job in &jobs {
         let r = &records[job.source];
@@ -423,6 +426,8 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             timing: part.timing.clone(),
         });
         rows.extend(part.rows);
+        stations.extend(part.stations);
+        tubes.extend(part.tubes);
     }
     let units = records
         .iter()
@@ -435,6 +440,8 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let reports_inputs = shard.is_none_or(|s| s.index == 0);
     let assembled = Assembled {
         rows,
+        stations,
+        tubes,
         statuses,
         records,
         config: config.clone(),
@@ -453,6 +460,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     write_outputs(&out, &assembled, &meta)?;
     let Assembled {
         rows,
+        tubes,
         statuses,
         records,
         units,
@@ -484,6 +492,14 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         rows.iter().filter(|r| !r.flags.is_empty()).count(),
         out.join("catalog.csv").display()
     );
+    if plan.input.geometry == vortcat_field::Geometry::Volume {
+        println!(
+            "{} tubes ({} with a fitted station) -> {}",
+            tubes.len(),
+            tubes.iter().filter(|t| t.fitted > 0).count(),
+            out.join("tubes.csv").display()
+        );
+    }
     Ok(if failed_snapshots > 0 || !input_failures.is_empty() {
         ExitCode::from(EXIT_PARTIAL)
     } else {
@@ -494,6 +510,9 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
 /// Everything a survey (or a merge of shards) writes.
 pub(crate) struct Assembled {
     pub rows: Vec<CatalogRow>,
+    /// Tube stations and summaries (volume surveys), in snapshot, tube, station order.
+    pub stations: Vec<volume::StationRow>,
+    pub tubes: Vec<volume::TubeRow>,
     pub statuses: Vec<SnapshotStatus>,
     pub records: Vec<InputRecord>,
     pub config: Config,
@@ -533,11 +552,21 @@ fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
     (total, inputs::hex(&h.finalize()))
 }
 
-/// Writes catalog.csv, catalog.jsonl, units.csv, summary.json and run.json.
+/// Writes catalog.csv, catalog.jsonl, units.csv, summary.json and run.json; for volume
+/// surveys also stations.csv, tubes.csv, their JSON lines and units tables.
 pub(crate) fn write_outputs(out: &Path, a: &Assembled, meta: &RunMeta) -> anyhow::Result<()> {
     let rows = &a.rows;
     catalog::write_csv(&out.join("catalog.csv"), rows)?;
     catalog::write_jsonl(&out.join("catalog.jsonl"), rows)?;
+    if a.config.input.geometry == vortcat_field::Geometry::Volume {
+        volume::write_outputs(
+            out,
+            &a.stations,
+            &a.tubes,
+            &a.units,
+            &a.config.volume.criterion,
+        )?;
+    }
     catalog::write_units(
         &out.join("units.csv"),
         &a.units.length,
@@ -678,6 +707,8 @@ fn failed_part(record: &InputRecord, index: usize, config_sha: &str, error: Stri
         error: Some(error),
         candidates: 0,
         rows: vec![],
+        stations: vec![],
+        tubes: vec![],
         timing: Timing::default(),
     }
 }
@@ -689,6 +720,30 @@ fn process_one(
     config_sha: &str,
     plan: &Plan,
 ) -> Part {
+    if plan.input.geometry == vortcat_field::Geometry::Volume {
+        return match volume::process(reader, index, &record.path, plan) {
+            Ok(outcome) => Part {
+                snapshot: format!("{}#{index}", record.path),
+                file: record.path.clone(),
+                index,
+                source_sha256: record.sha256.clone(),
+                config_sha256: config_sha.to_string(),
+                status: "done".into(),
+                error: None,
+                candidates: outcome.tubes.len(),
+                rows: vec![],
+                stations: outcome.stations,
+                tubes: outcome.tubes,
+                timing: outcome.timing,
+            },
+            Err(e) => failed_part(
+                record,
+                index,
+                config_sha,
+                format!("{}: {}", record.path, crate::one_line(&e)),
+            ),
+        };
+    }
     let t0 = Instant::now();
     let snapshot = match reader.read(index) {
         Ok(s) => s,
@@ -706,6 +761,8 @@ fn process_one(
             error: None,
             candidates: outcome.candidates,
             rows: outcome.rows,
+            stations: vec![],
+            tubes: vec![],
             timing: Timing {
                 read,
                 detect: outcome.detect_seconds,

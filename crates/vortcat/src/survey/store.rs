@@ -11,6 +11,7 @@ use sha2::{Digest, Sha256};
 
 use super::catalog::CatalogRow;
 use super::inputs::hex;
+use super::volume::{StationRow, TubeRow};
 
 /// Writes `bytes` to `path` through a temporary file in the same folder and a rename, with an
 /// fsync before the rename: readers see the old file or the new one, never a torn one.
@@ -63,6 +64,12 @@ pub struct Part {
     pub candidates: usize,
     /// Catalog rows.
     pub rows: Vec<CatalogRow>,
+    /// Tube stations (volume surveys; absent from plane parts).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub stations: Vec<StationRow>,
+    /// Tube summaries (volume surveys; absent from plane parts).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub tubes: Vec<TubeRow>,
     /// Timings.
     pub timing: Timing,
 }
@@ -169,6 +176,8 @@ mod tests {
             error: None,
             candidates: 0,
             rows: vec![],
+            stations: vec![],
+            tubes: vec![],
             timing: Timing::default(),
         };
         store.save(&part).unwrap();

@@ -14,6 +14,7 @@ use rand_distr::{Distribution, Normal};
 use serde::Serialize;
 
 pub mod flow;
+pub mod volume;
 mod write;
 
 use flow::{SynthModel, SynthVortex, INFLOW_ZERO_RADIUS};
@@ -29,6 +30,10 @@ pub enum Scenario {
     /// Independent snapshots, each with a random population of well-separated Burgers and
     /// Lamb–Oseen vortices of random size, strength and sense.
     Population,
+    /// Volumes (HDF5 u, v, w as (z, y, x), whatever --format says) of a cube of --nx points
+    /// per side [48] holding two tilted vortex tubes, a Burgers and a Lamb–Oseen one; survey
+    /// with --geometry volume. One volume per snapshot [1].
+    Tubes,
 }
 
 /// Output file format.
@@ -376,6 +381,10 @@ pub fn run(args: SynthArgs) -> anyhow::Result<ExitCode> {
     let (nx_default, ny_default, n_default) = match args.scenario {
         Scenario::Wake => (240, 120, 100),
         Scenario::Population => (256, 256, 20),
+        Scenario::Tubes => {
+            volume::run(&args)?;
+            return Ok(ExitCode::SUCCESS);
+        }
     };
     let nx = args.nx.unwrap_or(nx_default);
     let ny = args.ny.unwrap_or(ny_default);
@@ -395,7 +404,8 @@ pub fn run(args: SynthArgs) -> anyhow::Result<ExitCode> {
     let mut rng = ChaCha8Rng::seed_from_u64(args.seed);
     let snapshots: Vec<(f64, Population)> = match args.scenario {
         Scenario::Wake => wake(&args, &domain, &mut rng, n),
-        Scenario::Population => (0..n)
+        // (Tubes returned above.)
+        Scenario::Population | Scenario::Tubes => (0..n)
             .map(|s| (s as f64 * args.dt, population(&args, &domain, &mut rng)))
             .collect(),
     };
