@@ -5,5 +5,6 @@ mod bad_input;
 mod harness;
 mod inspect;
 mod merge;
+mod report;
 mod survey;
 mod volume;

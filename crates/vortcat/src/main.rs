@@ -12,6 +12,9 @@ mod input;
 mod inspect;
 mod merge;
 mod plan;
+mod rank;
+mod report;
+mod stats;
 mod survey;
 mod synth;
 
@@ -33,6 +36,12 @@ enum Command {
     Merge(merge::MergeArgs),
     /// Write synthetic snapshots with a known vortex population and its truth table.
     Synth(synth::SynthArgs),
+    /// Write a static quality-control report of a survey folder: DIR/report/index.html.
+    Report(report::ReportArgs),
+    /// Print a survey's vortices ranked by one quantity (circulation ranks by |circulation|).
+    Rank(rank::RankArgs),
+    /// Print population statistics of a survey, split by sense and by model.
+    Stats(stats::StatsArgs),
 }
 
 /// Exit code for "could not run" (bad input, bad config, unreadable file).
@@ -45,6 +54,9 @@ fn main() -> ExitCode {
         Command::Survey(args) => survey::run(args),
         Command::Merge(args) => merge::run(args),
         Command::Synth(args) => synth::run(args),
+        Command::Report(args) => report::run(args),
+        Command::Rank(args) => rank::run(args),
+        Command::Stats(args) => stats::run(args),
     };
     match result {
         Ok(code) => code,

@@ -93,6 +93,9 @@ pub struct SurveyArgs {
         help_heading = "Run"
     )]
     progress: String,
+    /// Also write the quality-control report DIR/report/index.html (defaults of `vortcat report`).
+    #[arg(long, help_heading = "Output")]
+    report: bool,
 }
 
 /// One snapshot to process.
@@ -499,6 +502,9 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             tubes.iter().filter(|t| t.fitted > 0).count(),
             out.join("tubes.csv").display()
         );
+    }
+    if args.report {
+        crate::report::write(&out, &crate::report::ReportFlags::defaults())?;
     }
     Ok(if failed_snapshots > 0 || !input_failures.is_empty() {
         ExitCode::from(EXIT_PARTIAL)
