@@ -92,7 +92,11 @@ fn outputs_and_manifest() {
     assert_eq!(manifest["snapshots"].as_array().unwrap().len(), 3);
     assert!(manifest["started"].as_str().unwrap().ends_with('Z'));
     let commit = manifest["git_commit"].as_str().unwrap();
-    assert!(commit == "unknown" || (commit.len() == 40 && commit.chars().all(|c| c.is_ascii_hexdigit())), "{commit}");
+    assert!(
+        commit == "unknown"
+            || (commit.len() == 40 && commit.chars().all(|c| c.is_ascii_hexdigit())),
+        "{commit}"
+    );
     assert_eq!(manifest["config"]["fluid"]["viscosity"], 1e-6);
     let units = std::fs::read_to_string(out.join("units.csv")).unwrap();
     assert!(units.contains("circulation,(m)*(m/s),"), "{units}");
