@@ -80,7 +80,9 @@ impl Writer {
             SynthFormat::Npz => {
                 let name = format!("{stem}.npz");
                 let path = self.dir.join(&name);
-                let mut w = NpzWriter::new_compressed(
+                // Stored, not deflated: noisy velocity data shrink by only ~5 % and every reader
+                // would pay for decompression (a third of a survey's time in the benchmark).
+                let mut w = NpzWriter::new(
                     fs::File::create(&path).with_context(|| format!("{}", path.display()))?,
                 );
                 w.add_array("u", u)?;
