@@ -119,6 +119,32 @@ fn thread_count_does_not_change_the_catalog() {
     }
 }
 
+/// Starts a one-thread survey of `data` into `out` in the background and returns once it has
+/// finished `parts` snapshots (or has exited, or after 60 s). Standard error is piped.
+fn start_and_wait_for_parts(data: &Path, out: &Path, parts: usize) -> std::process::Child {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
+        .args([
+            "survey",
+            data.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ])
+        .args(["--threads", "1", "--progress", "none"])
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let deadline = Instant::now() + Duration::from_secs(60);
+    let done = || std::fs::read_dir(out.join("parts")).map_or(0, |d| d.count());
+    while done() < parts && Instant::now() < deadline {
+        if child.try_wait().unwrap().is_some() {
+            break;
+        }
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    child
+}
+
 #[test]
 fn kill_9_then_resume_gives_the_same_catalog() {
     let dir = tempfile::tempdir().unwrap();
@@ -128,35 +154,8 @@ fn kill_9_then_resume_gives_the_same_catalog() {
     assert_eq!(survey(&[&data], &reference, &["--threads", "1"]).code, 0);
 
     let out = dir.path().join("killed");
-    let mut child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
-        .args([
-            "survey",
-            data.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--threads",
-            "1",
-            "--progress",
-            "none",
-        ])
-        .stdout(Stdio::null())
-        .stderr(Stdio::null())
-        .spawn()
-        .unwrap();
     // Wait until some but not all snapshots are done, then SIGKILL.
-    let deadline = Instant::now() + Duration::from_secs(60);
-    loop {
-        let done = std::fs::read_dir(out.join("parts"))
-            .map(|d| d.count())
-            .unwrap_or(0);
-        if done >= 3 || Instant::now() > deadline {
-            break;
-        }
-        if child.try_wait().unwrap().is_some() {
-            break;
-        }
-        std::thread::sleep(Duration::from_millis(2));
-    }
+    let mut child = start_and_wait_for_parts(&data, &out, 3);
     child.kill().unwrap(); // SIGKILL on Unix
     child.wait().unwrap();
     let partial = std::fs::read_dir(out.join("parts")).unwrap().count();
@@ -298,33 +297,7 @@ fn ctrl_c_stops_cleanly_and_leaves_a_resumable_state() {
     let reference = dir.path().join("reference");
     assert_eq!(survey(&[&data], &reference, &["--threads", "2"]).code, 0);
     let out = dir.path().join("interrupted");
-    let mut child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
-        .args([
-            "survey",
-            data.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--threads",
-            "1",
-            "--progress",
-            "none",
-        ])
-        .stdout(Stdio::null())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
-    let deadline = Instant::now() + Duration::from_secs(60);
-    while std::fs::read_dir(out.join("parts"))
-        .map(|d| d.count())
-        .unwrap_or(0)
-        < 2
-        && Instant::now() < deadline
-    {
-        if child.try_wait().unwrap().is_some() {
-            break;
-        }
-        std::thread::sleep(Duration::from_millis(2));
-    }
+    let mut child = start_and_wait_for_parts(&data, &out, 2);
     let interrupted = child.try_wait().unwrap().is_none();
     if interrupted {
         // SIGINT, as Ctrl-C sends it.
