@@ -144,39 +144,43 @@ pub const COLUMNS: &[(&str, &str, &str)] = &[
     ("flags", "", "quality flags separated by ';'"),
 ];
 
-/// Writes `catalog.csv` with a header even when there are no rows.
-pub fn write_csv(path: &Path, rows: &[CatalogRow]) -> anyhow::Result<()> {
+/// Writes `DIR/STEM.csv` (header from `columns`, written even when there are no rows) and the
+/// same rows as JSON lines in `DIR/STEM.jsonl`. Used for the plane catalog and the 3D tables.
+pub fn write_table<T: Serialize>(
+    dir: &Path,
+    stem: &str,
+    columns: &[(&str, &str, &str)],
+    rows: &[T],
+) -> anyhow::Result<()> {
     let mut w = csv::WriterBuilder::new()
         .has_headers(false)
         .from_writer(Vec::new());
-    w.write_record(COLUMNS.iter().map(|c| c.0))?;
+    w.write_record(columns.iter().map(|c| c.0))?;
     for r in rows {
         w.serialize(r)?;
     }
     let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-    crate::survey::store::write_atomic(path, &bytes)
-}
-
-/// Writes the same rows as JSON lines.
-pub fn write_jsonl(path: &Path, rows: &[CatalogRow]) -> anyhow::Result<()> {
-    let mut out = Vec::new();
+    crate::survey::store::write_atomic(&dir.join(format!("{stem}.csv")), &bytes)?;
+    let mut lines = Vec::new();
     for r in rows {
-        serde_json::to_writer(&mut out, r)?;
-        out.write_all(b"\n")?;
+        serde_json::to_writer(&mut lines, r)?;
+        lines.write_all(b"\n")?;
     }
-    crate::survey::store::write_atomic(path, &out)
+    crate::survey::store::write_atomic(&dir.join(format!("{stem}.jsonl")), &lines)
 }
 
-/// Writes `units.csv`: column, unit, description, with the unit kinds resolved.
+/// Writes a units table (`column, unit, description`) for `columns`, resolving each unit kind
+/// (`length`, `velocity`, `time`, `length^2/time`, `1/time`, `criterion`) with the input's units.
 pub fn write_units(
     path: &Path,
-    length: &str,
-    velocity: &str,
+    columns: &[(&str, &str, &str)],
+    units: &vortcat_field::Units,
     criterion_unit: &str,
 ) -> anyhow::Result<()> {
+    let (length, velocity) = (&units.length, &units.velocity);
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(["column", "unit", "description"])?;
-    for (name, kind, description) in COLUMNS {
+    for (name, kind, description) in columns {
         let unit = match *kind {
             "length" => length.to_string(),
             "velocity" => velocity.to_string(),
@@ -195,6 +199,31 @@ pub fn write_units(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn units_are_resolved_from_the_input_units() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("u.csv");
+        let units = vortcat_field::Units {
+            length: "mm".into(),
+            velocity: "m/s".into(),
+        };
+        write_units(&p, COLUMNS, &units, "1/s").unwrap();
+        let text = std::fs::read_to_string(&p).unwrap();
+        for line in [
+            "circulation,(mm)*(m/s),circulation",
+            "strain_rate,(m/s)/(mm),",
+            "time,s,",
+            "x,mm,",
+            "criterion_peak,1/s,",
+            "vortex,,",
+        ] {
+            assert!(
+                text.lines().any(|l| l.starts_with(line)),
+                "{line} missing:\n{text}"
+            );
+        }
+    }
 
     #[test]
     fn columns_match_the_row_fields() {
@@ -240,9 +269,11 @@ mod tests {
         let columns: Vec<&str> = COLUMNS.iter().map(|c| c.0).collect();
         assert_eq!(text.lines().next().unwrap(), columns.join(","));
         let dir = tempfile::tempdir().unwrap();
-        let p = dir.path().join("c.csv");
-        write_csv(&p, &[row]).unwrap();
-        let text = std::fs::read_to_string(&p).unwrap();
+        write_table(dir.path(), "c", COLUMNS, std::slice::from_ref(&row)).unwrap();
+        let jsonl = std::fs::read_to_string(dir.path().join("c.jsonl")).unwrap();
+        let back: CatalogRow = serde_json::from_str(jsonl.trim_end()).unwrap();
+        assert_eq!(back, row);
+        let text = std::fs::read_to_string(dir.path().join("c.csv")).unwrap();
         let header = text.lines().next().unwrap();
         assert_eq!(header, columns.join(","));
         let second: Vec<&str> = text.lines().nth(1).unwrap().split(',').collect();

@@ -562,8 +562,7 @@ fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
 /// surveys also stations.csv, tubes.csv, their JSON lines and units tables.
 pub(crate) fn write_outputs(out: &Path, a: &Assembled, meta: &RunMeta) -> anyhow::Result<()> {
     let rows = &a.rows;
-    catalog::write_csv(&out.join("catalog.csv"), rows)?;
-    catalog::write_jsonl(&out.join("catalog.jsonl"), rows)?;
+    catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?;
     if a.config.input.geometry == vortcat_field::Geometry::Volume {
         volume::write_outputs(
             out,
@@ -575,8 +574,8 @@ pub(crate) fn write_outputs(out: &Path, a: &Assembled, meta: &RunMeta) -> anyhow
     }
     catalog::write_units(
         &out.join("units.csv"),
-        &a.units.length,
-        &a.units.velocity,
+        catalog::COLUMNS,
+        &a.units,
         &a.config.detection.criterion,
     )?;
     let failed = a.statuses.iter().filter(|s| s.status != "done").count();

@@ -3,7 +3,6 @@
 //! the rows of `stations.csv` and `tubes.csv` (columns in `docs/catalog.md`). Values are in the
 //! input's units, as in the plane catalog.
 
-use std::io::Write;
 use std::path::Path;
 use std::time::Instant;
 
@@ -12,7 +11,8 @@ use serde::{de::DeserializeOwned, Deserialize, Serialize};
 use vortcat_field::SnapshotReader;
 use vortcat_tube::{survey_tubes, ReaderVolume, Station, Tube};
 
-use super::store::{write_atomic, Timing};
+use super::catalog::{write_table, write_units};
+use super::store::Timing;
 use crate::plan::Plan;
 
 /// One row of `stations.csv`: a station of a tube's core line.
@@ -351,53 +351,6 @@ pub fn process(
             fit: s.fit_seconds,
         },
     })
-}
-
-fn write_table<T: Serialize>(
-    dir: &Path,
-    stem: &str,
-    columns: &[(&str, &str, &str)],
-    rows: &[T],
-) -> anyhow::Result<()> {
-    let mut w = csv::WriterBuilder::new()
-        .has_headers(false)
-        .from_writer(Vec::new());
-    w.write_record(columns.iter().map(|c| c.0))?;
-    for r in rows {
-        w.serialize(r)?;
-    }
-    let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-    write_atomic(&dir.join(format!("{stem}.csv")), &bytes)?;
-    let mut lines = Vec::new();
-    for r in rows {
-        serde_json::to_writer(&mut lines, r)?;
-        lines.write_all(b"\n")?;
-    }
-    write_atomic(&dir.join(format!("{stem}.jsonl")), &lines)
-}
-
-fn write_units(
-    path: &Path,
-    columns: &[(&str, &str, &str)],
-    units: &vortcat_field::Units,
-    criterion: &str,
-) -> anyhow::Result<()> {
-    let (length, velocity) = (&units.length, &units.velocity);
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(["column", "unit", "description"])?;
-    for (name, kind, description) in columns {
-        let unit = match *kind {
-            "length" => length.to_string(),
-            "velocity" => velocity.to_string(),
-            "length^2/time" => format!("({length})*({velocity})"),
-            "1/time" => format!("({velocity})/({length})"),
-            "criterion" => criterion.to_string(),
-            _ => String::new(),
-        };
-        w.write_record([*name, unit.as_str(), *description])?;
-    }
-    let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-    write_atomic(path, &bytes)
 }
 
 /// Writes `stations.csv`, `stations.jsonl`, `tubes.csv`, `tubes.jsonl` and their units tables
