@@ -79,6 +79,7 @@ fn truncated_hdf5() {
     let dir = tempfile::tempdir().unwrap();
     let p = dir.path().join("cut.h5");
     {
+        let _guard = crate::harness::hdf5_writing();
         let f = hdf5::File::create(&p).unwrap();
         f.new_dataset_builder()
             .with_data(&ndarray::Array3::<f64>::zeros((4, 64, 64)))
@@ -109,6 +110,7 @@ fn missing_dataset_lists_what_exists() {
     let dir = tempfile::tempdir().unwrap();
     let p = dir.path().join("other.h5");
     {
+        let _guard = crate::harness::hdf5_writing();
         let f = hdf5::File::create(&p).unwrap();
         let g = f.create_group("piv").unwrap();
         g.new_dataset_builder()
@@ -156,6 +158,7 @@ fn strings_where_numbers_are_expected() {
 
     let h = dir.path().join("text.h5");
     {
+        let _guard = crate::harness::hdf5_writing();
         let f = hdf5::File::create(&h).unwrap();
         let s: hdf5::types::VarLenUnicode = "north".parse().unwrap();
         f.new_dataset_builder()
@@ -300,6 +303,7 @@ fn hdf5_dataset_too_large_to_read_is_refused_before_allocating() {
     {
         // A chunked dataset of 2 × 10^6 × 10^6 float64 that HDF5 stores sparsely (no chunk
         // written): a snapshot would need 7450 GiB.
+        let _guard = crate::harness::hdf5_writing();
         let f = hdf5::File::create(&p).unwrap();
         for name in ["u", "v"] {
             f.new_dataset::<f64>()

@@ -1,7 +1,19 @@
 //! A small harness: run the binary, capture what a user sees.
 
 use std::path::{Path, PathBuf};
-use std::process::Command;
+use std::process::{Command, Stdio};
+use std::sync::{Mutex, MutexGuard};
+
+/// Held while a test writes an HDF5 file in this process and while a child is spawned.
+/// libhdf5 locks files with flock on descriptors that are not close-on-exec: a child forked
+/// by another test while a file is open for writing inherits that lock, and the vortcat run
+/// that then opens the file fails with "unable to lock file". Keeping the two apart removes it.
+static FORK_GUARD: Mutex<()> = Mutex::new(());
+
+/// The guard for writing an HDF5 file inside a test (drop the file before the guard).
+pub fn hdf5_writing() -> MutexGuard<'static, ()> {
+    FORK_GUARD.lock().unwrap_or_else(|e| e.into_inner())
+}
 
 pub struct Run {
     pub code: i32,
@@ -14,7 +26,8 @@ where
     I: IntoIterator<Item = S>,
     S: AsRef<std::ffi::OsStr>,
 {
-    let out = Command::new(env!("CARGO_BIN_EXE_vortcat"))
+    let guard = hdf5_writing();
+    let child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
         .args(args)
         .env_remove("RUST_BACKTRACE")
         // A test run inside a SLURM job must not pick up its array variables.
@@ -22,8 +35,13 @@ where
         .env_remove("SLURM_ARRAY_TASK_MIN")
         .env_remove("SLURM_ARRAY_TASK_MAX")
         .env_remove("SLURM_ARRAY_TASK_COUNT")
-        .output()
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
         .expect("run vortcat");
+    drop(guard);
+    let out = child.wait_with_output().expect("run vortcat");
     Run {
         code: out.status.code().unwrap_or(-1),
         stdout: String::from_utf8_lossy(&out.stdout).into_owned(),

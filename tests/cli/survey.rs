@@ -122,6 +122,7 @@ fn thread_count_does_not_change_the_catalog() {
 /// Starts a one-thread survey of `data` into `out` in the background and returns once it has
 /// finished `parts` snapshots (or has exited, or after 60 s). Standard error is piped.
 fn start_and_wait_for_parts(data: &Path, out: &Path, parts: usize) -> std::process::Child {
+    let guard = crate::harness::hdf5_writing();
     let mut child = Command::new(env!("CARGO_BIN_EXE_vortcat"))
         .args([
             "survey",
@@ -134,6 +135,7 @@ fn start_and_wait_for_parts(data: &Path, out: &Path, parts: usize) -> std::proce
         .stderr(Stdio::piped())
         .spawn()
         .unwrap();
+    drop(guard);
     let deadline = Instant::now() + Duration::from_secs(60);
     let done = || std::fs::read_dir(out.join("parts")).map_or(0, |d| d.count());
     while done() < parts && Instant::now() < deadline {
