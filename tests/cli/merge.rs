@@ -84,7 +84,7 @@ fn merged_shards_equal_a_single_survey() {
     let m: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(sharded.join("run.json")).unwrap()).unwrap();
     assert_eq!(m["snapshots"].as_array().unwrap().len(), 7);
-    assert_eq!(m["inputs"][0]["sha256"].as_str().unwrap().len(), 64);
+    assert_eq!(m["inputs"][0]["blake3"].as_str().unwrap().len(), 64);
 }
 
 #[test]

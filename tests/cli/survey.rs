@@ -88,7 +88,7 @@ fn outputs_and_manifest() {
     let manifest: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
     assert_eq!(manifest["inputs"].as_array().unwrap().len(), 3);
-    assert_eq!(manifest["inputs"][0]["sha256"].as_str().unwrap().len(), 64);
+    assert_eq!(manifest["inputs"][0]["blake3"].as_str().unwrap().len(), 64);
     assert_eq!(manifest["snapshots"].as_array().unwrap().len(), 3);
     assert!(manifest["started"].as_str().unwrap().ends_with('Z'));
     let commit = manifest["git_commit"].as_str().unwrap();

@@ -454,7 +454,7 @@ fn overview(page: &mut String, survey: &Survey, detail: &[(usize, Reason)], n_ma
             i.bytes,
             i.snapshots,
             i.snapshots,
-            esc(i.sha256.get(..16).unwrap_or(&i.sha256)),
+            esc(i.blake3.get(..16).unwrap_or(&i.blake3)),
             esc(i.error.as_deref().unwrap_or(""))
         );
     }

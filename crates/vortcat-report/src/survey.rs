@@ -177,8 +177,9 @@ pub struct InputRecord {
     pub path: String,
     /// Size in bytes.
     pub bytes: u64,
-    /// SHA-256 of the content.
-    pub sha256: String,
+    /// BLAKE3 hash of the content (`sha256` in manifests before version 0.1 stored SHA-256).
+    #[serde(alias = "sha256")]
+    pub blake3: String,
     /// Snapshots in the file.
     pub snapshots: usize,
     /// Why the file could not be used.

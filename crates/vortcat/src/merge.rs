@@ -282,8 +282,8 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
         statuses.extend(summary.per_snapshot);
         // Each shard hashed the inputs it read: take every hash from the shard that has it.
         for (r, theirs) in records.iter_mut().zip(&m.inputs) {
-            if r.sha256.is_empty() && !theirs.sha256.is_empty() {
-                r.sha256 = theirs.sha256.clone();
+            if r.blake3.is_empty() && !theirs.blake3.is_empty() {
+                r.blake3 = theirs.blake3.clone();
             }
             if r.error.is_none() {
                 r.error = theirs.error.clone();

@@ -42,6 +42,40 @@ impl Space {
     }
 }
 
+/// Position lookup in a raster-sorted cell list: the offset of every grid row's first cell, so
+/// that finding a neighbour is a search within one row (a handful of cells) instead of within
+/// the whole list. Memory is one offset per grid row, not per grid point.
+pub(crate) struct RowIndex<'a> {
+    cells: &'a [usize],
+    starts: Vec<usize>,
+    nx: usize,
+}
+
+impl<'a> RowIndex<'a> {
+    pub fn new(cells: &'a [usize], space: &Space) -> Self {
+        let nx = space.n[0].max(1);
+        let rows = space.n[1] * space.n[2];
+        let mut starts = Vec::with_capacity(rows + 1);
+        let mut next = 0;
+        for row in 0..=rows {
+            let first_flat = row * nx;
+            while next < cells.len() && cells[next] < first_flat {
+                next += 1;
+            }
+            starts.push(next);
+        }
+        Self { cells, starts, nx }
+    }
+
+    /// Position of `flat` in the cell list, if it is there.
+    #[inline]
+    pub fn position(&self, flat: usize) -> Option<usize> {
+        let row = flat / self.nx;
+        let (lo, hi) = (*self.starts.get(row)?, *self.starts.get(row + 1)?);
+        self.cells[lo..hi].binary_search(&flat).ok().map(|i| i + lo)
+    }
+}
+
 fn find(parent: &mut [u32], mut i: u32) -> u32 {
     while parent[i as usize] != i {
         let g = parent[parent[i as usize] as usize];
@@ -55,12 +89,13 @@ fn find(parent: &mut [u32], mut i: u32) -> u32 {
 /// positions into `cells`, each list ascending, components ordered by their first cell.
 pub(crate) fn components(cells: &[usize], space: &Space) -> Vec<Vec<usize>> {
     debug_assert!(cells.windows(2).all(|w| w[0] < w[1]));
+    let index = RowIndex::new(cells, space);
     let mut parent: Vec<u32> = (0..cells.len() as u32).collect();
     let mut nb = Vec::with_capacity(26);
     for (pos, &flat) in cells.iter().enumerate() {
         space.neighbours(flat, &mut nb);
         for &q in nb.iter().filter(|&&q| q < flat) {
-            if let Ok(qpos) = cells.binary_search(&q) {
+            if let Some(qpos) = index.position(q) {
                 let (a, b) = (
                     find(&mut parent, pos as u32),
                     find(&mut parent, qpos as u32),
@@ -87,19 +122,41 @@ pub(crate) fn components(cells: &[usize], space: &Space) -> Vec<Vec<usize>> {
 }
 
 /// Splits one component (positions into `cells`/`strength`) at significant saddles.
-/// Returns the sub-regions (ascending positions), ordered by first cell.
+/// Returns the sub-regions (ascending positions), ordered by first cell. `local_of` is scratch
+/// space of `cells.len()` entries, all `u32::MAX` on entry and on return.
 pub(crate) fn split(
     comp: &[usize],
-    cells: &[usize],
+    index: &RowIndex<'_>,
     strength: &[f64],
     space: &Space,
     settings: &SplitSettings,
+    local_of: &mut [u32],
 ) -> Vec<Vec<usize>> {
     if comp.len() < 2 * settings.min_basin_cells {
         return vec![comp.to_vec()];
     }
+    let cells = index.cells;
+    for (l, &pos) in comp.iter().enumerate() {
+        local_of[pos] = l as u32;
+    }
+    let regions = split_marked(comp, index, cells, strength, space, settings, local_of);
+    for &pos in comp {
+        local_of[pos] = u32::MAX;
+    }
+    regions
+}
+
+fn split_marked(
+    comp: &[usize],
+    index: &RowIndex<'_>,
+    cells: &[usize],
+    strength: &[f64],
+    space: &Space,
+    settings: &SplitSettings,
+    local_of: &[u32],
+) -> Vec<Vec<usize>> {
     // Local index within the component, by position.
-    let local = |pos: usize| comp.binary_search(&pos).ok();
+    let local = |pos: usize| (local_of[pos] != u32::MAX).then(|| local_of[pos] as usize);
     let mut order: Vec<usize> = (0..comp.len()).collect();
     order.sort_by(|&a, &b| {
         strength[comp[b]]
@@ -118,7 +175,7 @@ pub(crate) fn split(
         space.neighbours(flat, &mut nb);
         roots.clear();
         for &q in &nb {
-            if let Ok(qpos) = cells.binary_search(&q) {
+            if let Some(qpos) = index.position(q) {
                 if let Some(ql) = local(qpos) {
                     if basin_of[ql] != u32::MAX {
                         let r = find(&mut parent, basin_of[ql]);
@@ -198,6 +255,23 @@ mod tests {
     }
 
     #[test]
+    fn row_index_finds_exactly_the_listed_cells() {
+        // Every grid point is looked up in a sparse list spanning rows and planes, including
+        // empty rows and the last row: a hit exactly for listed cells, at their position.
+        let space = Space { n: [4, 3, 2] };
+        let cells = vec![1, 2, 3, 9, 13, 14, 23];
+        let index = RowIndex::new(&cells, &space);
+        for flat in 0..24 {
+            assert_eq!(
+                index.position(flat),
+                cells.iter().position(|&c| c == flat),
+                "flat {flat}"
+            );
+        }
+        assert_eq!(index.position(24), None, "outside the grid");
+    }
+
+    #[test]
     fn twenty_six_connectivity_in_a_volume() {
         // Corner-touching voxels are 26-neighbours.
         let space = Space { n: [3, 3, 3] };
@@ -222,11 +296,17 @@ mod tests {
             saddle_ratio: 0.5,
             min_basin_cells: 3,
         };
-        let parts = split(&comp, &cells, &s, &space, &set);
+        let index = RowIndex::new(&cells, &space);
+        let mut scratch = vec![u32::MAX; cells.len()];
+        let parts = split(&comp, &index, &s, &space, &set, &mut scratch);
         assert_eq!(parts.len(), 2);
         assert_eq!(parts[0], vec![0, 1, 2, 3, 4, 5]);
+        assert!(scratch.iter().all(|&l| l == u32::MAX), "scratch restored");
         // A shallow saddle (6 > 0.5·8) keeps one region.
         let s2 = [2.0, 5.0, 9.0, 10.0, 7.0, 6.0, 6.5, 8.0, 7.5, 5.0, 2.0, 1.0];
-        assert_eq!(split(&comp, &cells, &s2, &space, &set).len(), 1);
+        assert_eq!(
+            split(&comp, &index, &s2, &space, &set, &mut scratch).len(),
+            1
+        );
     }
 }

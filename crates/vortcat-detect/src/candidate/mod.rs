@@ -197,6 +197,15 @@ fn find_regions(
         }
     }
     let mut regions = Vec::new();
+    let index = label::RowIndex::new(&cells, space);
+    let mut local_of = vec![
+        u32::MAX;
+        if settings.split().is_some() {
+            cells.len()
+        } else {
+            0
+        }
+    ];
     for comp in label::components(&cells, space) {
         match settings.split() {
             Some(sp) => {
@@ -205,7 +214,7 @@ fn find_regions(
                     min_basin_cells: sp.min_basin_cells.max(settings.min_cells()),
                     ..sp
                 };
-                let parts = label::split(&comp, &cells, &strength, space, &sp);
+                let parts = label::split(&comp, &index, &strength, space, &sp, &mut local_of);
                 let was_split = parts.len() > 1;
                 regions.extend(parts.into_iter().map(|p| (p, was_split)));
             }

@@ -122,8 +122,9 @@ pub(crate) struct SnapshotStatus {
 pub(crate) struct InputRecord {
     pub path: String,
     pub bytes: u64,
-    /// Content hash; empty for an input this shard did not read.
-    pub sha256: String,
+    /// BLAKE3 hash of the content (of a folder input: of its files' names and contents in name
+    /// order); empty for an input this shard did not read.
+    pub blake3: String,
     pub snapshots: usize,
     pub error: Option<String>,
 }
@@ -283,14 +284,14 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
                     Ok(r) => InputRecord {
                         path,
                         bytes,
-                        sha256: String::new(),
+                        blake3: String::new(),
                         snapshots: r.len(),
                         error: None,
                     },
                     Err(e) => InputRecord {
                         path,
                         bytes,
-                        sha256: String::new(),
+                        blake3: String::new(),
                         snapshots: 0,
                         error: Some(e.to_string()),
                     },
@@ -316,7 +317,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
                 mine.contains(&i) || (r.error.is_some() && shard.is_none_or(|s| s.index == 0));
             if hash_it {
                 match inputs::describe(Path::new(&r.path)) {
-                    Ok(d) => r.sha256 = d.sha256,
+                    Ok(d) => r.blake3 = d.blake3,
                     Err(e) => r.error = Some(crate::one_line(&e)),
                 }
             }
@@ -327,7 +328,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         .filter(|j| {
             let r = &records[j.source];
             store
-                .done(&r.path, &r.sha256, j.index, &config_sha)
+                .done(&r.path, &r.blake3, j.index, &config_sha)
                 .is_none()
         })
         .collect();
@@ -362,39 +363,52 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     // snapshots rather than once per snapshot (an .npz member is decompressed once per run).
     let runs = group_runs(&pending, threads);
     let save_errors: Mutex<Vec<String>> = Mutex::new(Vec::new());
-    pool.install(|| {
-        runs.par_iter().for_each(|run| {
-            let record = &records[run[0].source];
-            let mut reader = match vortcat_field::open(Path::new(&record.path), &plan.input) {
-                Ok(r) => Some(r),
-                Err(e) => {
-                    for job in run {
-                        let part = failed_part(record, job.index, &config_sha, e.to_string());
-                        failures.fetch_add(1, Ordering::Relaxed);
-                        if let Err(e) = store.save(&part) {
-                            save_errors.lock().expect("lock").push(crate::one_line(&e));
-                        }
-                        progress.tick(failures.load(Ordering::Relaxed));
-                    }
-                    None
-                }
-            };
-            let Some(reader) = reader.as_mut() else {
-                return;
-            };
-            for job in run {
-                if cancel.load(Ordering::SeqCst) {
-                    return;
-                }
-                let part = process_one(reader.as_mut(), record, job.index, &config_sha, &plan);
-                if part.status != "done" {
-                    failures.fetch_add(1, Ordering::Relaxed);
-                }
+    // Results are saved by one writer thread: each save waits for an fsync (about a
+    // millisecond on a virtual disk, far more on a network file system), which would otherwise
+    // idle a worker per snapshot. A result still queued when the process dies is recomputed on
+    // resume, like one in progress.
+    let (to_writer, from_workers) = std::sync::mpsc::channel::<Part>();
+    std::thread::scope(|scope| {
+        let store = &store;
+        let save_errors = &save_errors;
+        scope.spawn(move || {
+            for part in from_workers {
                 if let Err(e) = store.save(&part) {
                     save_errors.lock().expect("lock").push(crate::one_line(&e));
                 }
-                progress.tick(failures.load(Ordering::Relaxed));
             }
+        });
+        pool.install(|| {
+            runs.par_iter().for_each_with(to_writer, |to_writer, run| {
+                let record = &records[run[0].source];
+                let mut reader = match vortcat_field::open(Path::new(&record.path), &plan.input) {
+                    Ok(r) => Some(r),
+                    Err(e) => {
+                        for job in run {
+                            let part = failed_part(record, job.index, &config_sha, e.to_string());
+                            failures.fetch_add(1, Ordering::Relaxed);
+                            // The writer only stops after every sender is gone.
+                            let _ = to_writer.send(part);
+                            progress.tick(failures.load(Ordering::Relaxed));
+                        }
+                        None
+                    }
+                };
+                let Some(reader) = reader.as_mut() else {
+                    return;
+                };
+                for job in run {
+                    if cancel.load(Ordering::SeqCst) {
+                        return;
+                    }
+                    let part = process_one(reader.as_mut(), record, job.index, &config_sha, &plan);
+                    if part.status != "done" {
+                        failures.fetch_add(1, Ordering::Relaxed);
+                    }
+                    let _ = to_writer.send(part);
+                    progress.tick(failures.load(Ordering::Relaxed));
+                }
+            });
         });
     });
     progress.finish();
@@ -414,7 +428,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     for job in &jobs {
         let r = &records[job.source];
         let part = store
-            .load(&r.path, &r.sha256, job.index)
+            .load(&r.path, &r.blake3, job.index)
             .unwrap_or_else(|| {
                 failed_part(r, job.index, &config_sha, "no result was written".into())
             });
@@ -706,7 +720,7 @@ fn failed_part(record: &InputRecord, index: usize, config_sha: &str, error: Stri
         snapshot: format!("{}#{index}", record.path),
         file: record.path.clone(),
         index,
-        source_sha256: record.sha256.clone(),
+        source_blake3: record.blake3.clone(),
         config_sha256: config_sha.to_string(),
         status: "failed".into(),
         error: Some(error),
@@ -731,7 +745,7 @@ fn process_one(
                 snapshot: format!("{}#{index}", record.path),
                 file: record.path.clone(),
                 index,
-                source_sha256: record.sha256.clone(),
+                source_blake3: record.blake3.clone(),
                 config_sha256: config_sha.to_string(),
                 status: "done".into(),
                 error: None,
@@ -760,7 +774,7 @@ fn process_one(
             snapshot: format!("{}#{index}", record.path),
             file: record.path.clone(),
             index,
-            source_sha256: record.sha256.clone(),
+            source_blake3: record.blake3.clone(),
             config_sha256: config_sha.to_string(),
             status: "done".into(),
             error: None,

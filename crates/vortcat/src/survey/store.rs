@@ -53,7 +53,7 @@ pub struct Part {
     /// Index in the stack.
     pub index: usize,
     /// Content hash of the source.
-    pub source_sha256: String,
+    pub source_blake3: String,
     /// Hash of the resolved config this result was computed with.
     pub config_sha256: String,
     /// `done` or `failed`.
@@ -89,11 +89,11 @@ impl Store {
     }
 
     /// The file name of a snapshot's part: a hash of path, content and index.
-    pub fn key(file: &str, source_sha256: &str, index: usize) -> String {
+    pub fn key(file: &str, source_blake3: &str, index: usize) -> String {
         let mut h = Sha256::new();
         h.update(file.as_bytes());
         h.update([0]);
-        h.update(source_sha256.as_bytes());
+        h.update(source_blake3.as_bytes());
         h.update(index.to_le_bytes());
         format!("{}.json", &hex(&h.finalize())[..24])
     }
@@ -102,22 +102,22 @@ impl Store {
     pub fn done(
         &self,
         file: &str,
-        source_sha256: &str,
+        source_blake3: &str,
         index: usize,
         config_sha256: &str,
     ) -> Option<Part> {
-        let path = self.dir.join(Self::key(file, source_sha256, index));
+        let path = self.dir.join(Self::key(file, source_blake3, index));
         let text = fs::read_to_string(path).ok()?;
         let part: Part = serde_json::from_str(&text).ok()?;
         (part.status == "done"
             && part.config_sha256 == config_sha256
-            && part.source_sha256 == source_sha256)
+            && part.source_blake3 == source_blake3)
             .then_some(part)
     }
 
     /// The stored part of a snapshot, whatever its status.
-    pub fn load(&self, file: &str, source_sha256: &str, index: usize) -> Option<Part> {
-        let path = self.dir.join(Self::key(file, source_sha256, index));
+    pub fn load(&self, file: &str, source_blake3: &str, index: usize) -> Option<Part> {
+        let path = self.dir.join(Self::key(file, source_blake3, index));
         serde_json::from_str(&fs::read_to_string(path).ok()?).ok()
     }
 
@@ -125,7 +125,7 @@ impl Store {
     pub fn save(&self, part: &Part) -> anyhow::Result<()> {
         let path = self
             .dir
-            .join(Self::key(&part.file, &part.source_sha256, part.index));
+            .join(Self::key(&part.file, &part.source_blake3, part.index));
         write_atomic(&path, &serde_json::to_vec(part)?)
     }
 }
@@ -170,7 +170,7 @@ mod tests {
             snapshot: "a.h5#2".into(),
             file: "a.h5".into(),
             index: 2,
-            source_sha256: "abc".into(),
+            source_blake3: "abc".into(),
             config_sha256: "cfg1".into(),
             status: "done".into(),
             error: None,
