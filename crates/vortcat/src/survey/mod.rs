@@ -425,13 +425,20 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let mut stations = Vec::new();
     let mut tubes = Vec::new();
     let mut statuses = Vec::new();
-    for job in &jobs {
-        let r = &records[job.source];
-        let part = store
-            .load(&r.path, &r.blake3, job.index)
-            .unwrap_or_else(|| {
-                failed_part(r, job.index, &config_sha, "no result was written".into())
-            });
+    // Parts are read and parsed in parallel; collect keeps the job order.
+    let parts: Vec<Part> = pool.install(|| {
+        jobs.par_iter()
+            .map(|job| {
+                let r = &records[job.source];
+                store
+                    .load(&r.path, &r.blake3, job.index)
+                    .unwrap_or_else(|| {
+                        failed_part(r, job.index, &config_sha, "no result was written".into())
+                    })
+            })
+            .collect()
+    });
+    for part in parts {
         let flagged = part.rows.iter().filter(|r| !r.flags.is_empty()).count();
         statuses.push(SnapshotStatus {
             snapshot: part.snapshot.clone(),
