@@ -3,7 +3,7 @@
 use std::fmt;
 use std::path::{Path, PathBuf};
 
-use ndarray::{Array2, Array3, Zip};
+use ndarray::{Array2, Array3};
 use serde::{Deserialize, Serialize};
 
 use crate::error::FieldError;
@@ -55,6 +55,112 @@ pub struct PlaneField {
     valid: Array2<bool>,
 }
 
+/// A velocity component's element type.
+trait Component: Copy {
+    const NAN: Self;
+    fn is_nan(self) -> bool;
+    fn is_infinite(self) -> bool;
+}
+
+impl Component for f64 {
+    const NAN: Self = f64::NAN;
+    fn is_nan(self) -> bool {
+        f64::is_nan(self)
+    }
+    fn is_infinite(self) -> bool {
+        f64::is_infinite(self)
+    }
+}
+
+impl Component for f32 {
+    const NAN: Self = f32::NAN;
+    fn is_nan(self) -> bool {
+        f32::is_nan(self)
+    }
+    fn is_infinite(self) -> bool {
+        f32::is_infinite(self)
+    }
+}
+
+fn standard_layout<A: Clone, D: ndarray::Dimension>(a: &mut ndarray::Array<A, D>) {
+    if !a.is_standard_layout() {
+        *a = a.as_standard_layout().into_owned();
+    }
+}
+
+fn slice_of<A, D: ndarray::Dimension>(a: &mut ndarray::Array<A, D>) -> &mut [A] {
+    a.as_slice_mut().expect("standard layout")
+}
+
+/// Marks `valid` false where any component is NaN or the vector is flagged, and sets every
+/// component to NaN there, so that "invalid" has one representation downstream.
+///
+/// Errors: an infinite value (reported for the first component that has one, with its
+/// count), or no valid vector. One simple loop per component (each vectorises): reading a
+/// slab of a large volume must not cost more than the arithmetic done on it.
+fn mark_valid<T: Component>(
+    names: &[&str],
+    comps: &mut [&mut [T]],
+    flagged: Option<&[bool]>,
+    valid: &mut [bool],
+) -> Result<(), FieldError> {
+    // One fused pass for the usual two or three components; the per-component counts of
+    // infinite values are only needed for the error message.
+    let mut infinite = 0usize;
+    match comps {
+        [a, b] => {
+            for ((ok, &x), &y) in valid.iter_mut().zip(a.iter()).zip(b.iter()) {
+                infinite += usize::from(x.is_infinite() | y.is_infinite());
+                *ok = !(x.is_nan() | y.is_nan());
+            }
+        }
+        [a, b, c] => {
+            for (((ok, &x), &y), &z) in valid.iter_mut().zip(a.iter()).zip(b.iter()).zip(c.iter()) {
+                infinite += usize::from(x.is_infinite() | y.is_infinite() | z.is_infinite());
+                *ok = !(x.is_nan() | y.is_nan() | z.is_nan());
+            }
+        }
+        _ => {
+            for c in comps.iter() {
+                for (ok, &x) in valid.iter_mut().zip(c.iter()) {
+                    infinite += usize::from(x.is_infinite());
+                    *ok &= !x.is_nan();
+                }
+            }
+        }
+    }
+    if infinite > 0 {
+        for (name, c) in names.iter().zip(comps.iter()) {
+            let count = c.iter().filter(|x| x.is_infinite()).count();
+            if count > 0 {
+                return Err(FieldError::NonFinite {
+                    component: name.to_string(),
+                    count,
+                });
+            }
+        }
+    }
+    if let Some(f) = flagged {
+        for (ok, &bad) in valid.iter_mut().zip(f) {
+            *ok &= !bad;
+        }
+    }
+    let invalid: usize = valid.iter().map(|&ok| usize::from(!ok)).sum();
+    if invalid == valid.len() {
+        return Err(FieldError::NoValidVectors);
+    }
+    if invalid > 0 {
+        for c in comps.iter_mut() {
+            for (x, &ok) in c.iter_mut().zip(valid.iter()) {
+                if !ok {
+                    *x = T::NAN;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
 impl PlaneField {
     /// Builds a plane field, checking shapes against the grid and deriving the validity mask from
     /// NaN values and the optional `flagged` array (`true` = rejected vector).
@@ -95,47 +201,26 @@ impl PlaneField {
         if let Some(f) = flagged {
             check("mask", f.shape())?;
         }
-        for (name, a) in [("u", &u), ("v", &v)]
-            .into_iter()
-            .chain(w.as_ref().map(|w| ("w", w)))
-        {
-            let infinite = a.iter().filter(|x| x.is_infinite()).count();
-            if infinite > 0 {
-                return Err(FieldError::NonFinite {
-                    component: name.to_string(),
-                    count: infinite,
-                });
-            }
-        }
-        let mut valid = Array2::from_elem(u.raw_dim(), true);
-        Zip::from(&mut valid)
-            .and(&u)
-            .and(&v)
-            .for_each(|ok, &a, &b| *ok = !a.is_nan() && !b.is_nan());
-        if let Some(w) = &w {
-            Zip::from(&mut valid)
-                .and(w)
-                .for_each(|ok, &c| *ok &= !c.is_nan());
-        }
-        if let Some(f) = flagged {
-            Zip::from(&mut valid)
-                .and(f)
-                .for_each(|ok, &bad| *ok &= !bad);
-        }
-        if !valid.iter().any(|&ok| ok) {
-            return Err(FieldError::NoValidVectors);
-        }
-        let blank = |a: &mut Array2<f64>| {
-            Zip::from(a).and(&valid).for_each(|x, &ok| {
-                if !ok {
-                    *x = f64::NAN
-                }
-            })
-        };
-        blank(&mut u);
-        blank(&mut v);
+        standard_layout(&mut u);
+        standard_layout(&mut v);
         if let Some(w) = w.as_mut() {
-            blank(w);
+            standard_layout(w);
+        }
+        let flagged = flagged.map(|f| f.as_standard_layout());
+        let mut valid = Array2::from_elem(u.raw_dim(), true);
+        {
+            let mut names = vec!["u", "v"];
+            let mut comps: Vec<&mut [f64]> = vec![slice_of(&mut u), slice_of(&mut v)];
+            if let Some(w) = w.as_mut() {
+                names.push("w");
+                comps.push(slice_of(w));
+            }
+            mark_valid(
+                &names,
+                &mut comps,
+                flagged.as_ref().and_then(|f| f.as_slice()),
+                valid.as_slice_mut().expect("fresh array"),
+            )?;
         }
         Ok(Self {
             grid,
@@ -215,36 +300,17 @@ impl VolumeField {
                 });
             }
         }
-        for (name, a) in [("u", &u), ("v", &v), ("w", &w)] {
-            let infinite = a.iter().filter(|x| x.is_infinite()).count();
-            if infinite > 0 {
-                return Err(FieldError::NonFinite {
-                    component: name.to_string(),
-                    count: infinite,
-                });
-            }
-        }
-        let mut valid = Array3::from_elem(u.raw_dim(), true);
-        Zip::from(&mut valid)
-            .and(&u)
-            .and(&v)
-            .and(&w)
-            .for_each(|ok, &a, &b, &c| *ok = !(a.is_nan() || b.is_nan() || c.is_nan()));
-        if let Some(f) = flagged {
-            Zip::from(&mut valid)
-                .and(f)
-                .for_each(|ok, &bad| *ok &= !bad);
-        }
-        if !valid.iter().any(|&ok| ok) {
-            return Err(FieldError::NoValidVectors);
-        }
         for a in [&mut u, &mut v, &mut w] {
-            Zip::from(a).and(&valid).for_each(|x, &ok| {
-                if !ok {
-                    *x = f32::NAN
-                }
-            });
+            standard_layout(a);
         }
+        let flagged = flagged.map(|f| f.as_standard_layout());
+        let mut valid = Array3::from_elem(u.raw_dim(), true);
+        mark_valid(
+            &["u", "v", "w"],
+            &mut [slice_of(&mut u), slice_of(&mut v), slice_of(&mut w)],
+            flagged.as_ref().and_then(|f| f.as_slice()),
+            valid.as_slice_mut().expect("fresh array"),
+        )?;
         Ok(Self {
             grid,
             u,

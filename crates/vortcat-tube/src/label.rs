@@ -30,6 +30,7 @@ impl UnionFind {
     }
 
     /// Number of ids.
+    #[cfg(test)]
     pub fn len(&self) -> usize {
         self.parent.len()
     }

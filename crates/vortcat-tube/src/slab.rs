@@ -73,15 +73,36 @@ impl Slab {
                 end += 1;
             }
             let planes = source.read_planes(wrapped[start]..wrapped[end - 1] + 1)?;
+            // Row by row: each destination row is the source row at offset `px`, with the
+            // `px` wrapped columns on each side copied from the row's other end.
+            let source_rows = |ly: usize| (ly as isize - py as isize).rem_euclid(ny as isize);
             for (k, lz) in (start..end).enumerate() {
                 for ly in 0..nyl {
-                    let sy = (ly as isize - py as isize).rem_euclid(ny as isize) as usize;
-                    for lx in 0..nxl {
-                        let sx = (lx as isize - px as isize).rem_euclid(nx as isize) as usize;
-                        u[[lz, ly, lx]] = planes.u[[k, sy, sx]];
-                        v[[lz, ly, lx]] = planes.v[[k, sy, sx]];
-                        w[[lz, ly, lx]] = planes.w[[k, sy, sx]];
-                        if let Some(f) = &planes.flagged {
+                    let sy = source_rows(ly) as usize;
+                    for (dst, src) in [
+                        (&mut u, &planes.u),
+                        (&mut v, &planes.v),
+                        (&mut w, &planes.w),
+                    ] {
+                        let from = src.slice(ndarray::s![k, sy, ..]);
+                        let mut to = dst.slice_mut(ndarray::s![lz, ly, ..]);
+                        if px <= nx {
+                            to.slice_mut(ndarray::s![px..px + nx]).assign(&from);
+                            to.slice_mut(ndarray::s![..px])
+                                .assign(&from.slice(ndarray::s![nx - px..]));
+                            to.slice_mut(ndarray::s![px + nx..])
+                                .assign(&from.slice(ndarray::s![..px]));
+                        } else {
+                            // A pad wider than the axis wraps more than once.
+                            for (lx, t) in to.iter_mut().enumerate() {
+                                *t = from
+                                    [(lx as isize - px as isize).rem_euclid(nx as isize) as usize];
+                            }
+                        }
+                    }
+                    if let Some(f) = &planes.flagged {
+                        for lx in 0..nxl {
+                            let sx = (lx as isize - px as isize).rem_euclid(nx as isize) as usize;
                             if f[[k, sy, sx]] {
                                 flagged.get_or_insert_with(|| {
                                     Array3::from_elem((nzl, nyl, nxl), false)

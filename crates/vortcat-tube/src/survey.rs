@@ -1,19 +1,21 @@
-//! The streamed tube survey: three passes over the volume in slabs of z-planes.
+//! The streamed tube survey: two passes over the volume in slabs of z-planes.
 //!
-//! 1. **Statistics** (halo = derivative stencil): the criterion strength and, when asked,
-//!    S:S at every point, summed per plane, for the rms threshold and ε = 2ν⟨S:S⟩. Skipped
-//!    when the threshold is absolute and ε is not needed.
-//! 2. **Regions** (same halo): points above the threshold, with their strength and
-//!    vorticity, labelled by union–find across slabs and periodic faces ([`crate::label`]).
-//!    Regions smaller than the minimum are dropped; each remaining region's core line is
-//!    traced ([`crate::trace`]) from the sparse set of its points, which is all that is kept.
-//! 3. **Stations** (halo = the largest fitting window + interpolation + stencil): each station
+//! 1. **Detection** (halo = derivative stencil): the criterion at every point, once; per-plane
+//!    sums for the rms threshold and, when asked, S:S for ε = 2ν⟨S:S⟩; and the points that
+//!    can still be above the threshold (a floor from the partial sums, see the code), with
+//!    their strength and vorticity. After the last slab the exact threshold selects the points
+//!    above it, which are labelled by union–find across slabs and periodic faces
+//!    ([`crate::label`]) without reading the volume again. Regions smaller than the minimum
+//!    are dropped; each remaining region's core line is traced ([`crate::trace`]) from the
+//!    sparse set of its points, which is all that is kept.
+//! 2. **Stations** (halo = the largest fitting window + interpolation + stencil): each station
 //!    is computed from the slab whose core holds its centre ([`crate::station`]).
 //!
 //! Per-plane sums are added in plane order and stations are computed from data that do not
 //! depend on where the slab boundaries are, so the results are the same for every slab size
-//! and thread count. Peak memory: one slab with its halo, the points above the threshold,
-//! and per-plane sums.
+//! and thread count. Peak memory: one slab with its halo and one criterion array of its size,
+//! the points kept by the detection pass (above the floor, which rises from slab to slab), and
+//! per-plane sums.
 
 use std::collections::HashMap;
 use std::time::Instant;
@@ -80,6 +82,24 @@ impl VolumeKernel for StrainSquared {
             }
         }
         s
+    }
+}
+
+/// A point kept by the detection pass: its raster index, raw criterion value (the strength is
+/// recomputed from it in f64, exactly as it was compared) and vorticity.
+#[derive(Debug, Clone, Copy)]
+struct Candidate {
+    flat: u64,
+    raw: f32,
+    omega: [f32; 3],
+}
+
+impl Candidate {
+    /// Strictly above `level` (NaN never is).
+    #[inline]
+    fn passes(&self, criterion: Criterion, level: f64) -> bool {
+        let s = criterion.strength(f64::from(self.raw));
+        !s.is_nan() && s > level
     }
 }
 
@@ -154,9 +174,10 @@ pub struct Tube {
 pub struct SurveyStats {
     /// Grid points of the volume.
     pub points: u64,
-    /// Criterion evaluations (points × criterion passes).
+    /// Criterion evaluations (once per grid point with a valid slab).
     pub criterion_points: u64,
-    /// Seconds in criterion evaluation (both passes).
+    /// Seconds in the detection stage: criterion evaluation, threshold statistics, selection
+    /// of the points above the threshold with their vorticity, and labelling.
     pub detect_seconds: f64,
     /// Seconds reading slabs.
     pub read_seconds: f64,
@@ -244,67 +265,119 @@ pub fn survey_tubes(
     let need_eps = settings.kolmogorov == Kolmogorov::FromField;
     let need_rms = matches!(rule, Threshold::RelativeToRms(_));
 
-    // Pass 1: per-plane sums.
+    // Pass 1, the detection pass: per-plane sums for the threshold (and ε), and every point
+    // that can still be above the threshold. The threshold k·rms is only known after the last
+    // slab, but the partial sums give a floor that it cannot go below: the sum of squares only
+    // grows (partial sums of non-negative terms, added in the same plane order as the final
+    // sum, so this holds in floating point too) and the count of computed points is at most
+    // the number of grid points. Points at or below the floor are dropped as the floor rises;
+    // the rest are filtered exactly once the threshold is known. So the criterion is
+    // evaluated once per point, and the points kept never depend on the slab size.
     let mut plane_sq = vec![0.0_f64; nz];
     let mut plane_n = vec![0_u64; nz];
     let mut plane_ss = vec![0.0_f64; nz];
     let mut plane_ssn = vec![0_u64; nz];
-    if need_rms || need_eps {
-        for core in &slabs {
-            let t0 = Instant::now();
-            let slab = Slab::load(source, core.clone(), hw, pad, settings.periodic)?;
-            stats.read_seconds += t0.elapsed().as_secs_f64();
-            let Some(field) = slab.field.as_ref() else {
-                continue;
-            };
-            let [lx, ly, lz] = slab.n;
-            let mut out = Array3::<f32>::zeros((lz, ly, lx));
-            let t0 = Instant::now();
-            if need_rms {
-                map_volume_kernel_into(field, settings.scheme, settings.edge, &kernel, &mut out)?;
-                stats.criterion_points += (core.len() * nx * ny) as u64;
-                for gz in core.clone() {
-                    let (mut s, mut n) = (0.0, 0u64);
+    let grid_points = (nx * ny * nz) as f64;
+    let mut running_sq = 0.0_f64;
+    let mut points: Vec<Candidate> = Vec::new();
+    let mut out = Array3::<f32>::zeros((0, 0, 0));
+    for core in &slabs {
+        let t0 = Instant::now();
+        let slab = Slab::load(source, core.clone(), hw, pad, settings.periodic)?;
+        stats.read_seconds += t0.elapsed().as_secs_f64();
+        let Some(field) = slab.field.as_ref() else {
+            continue;
+        };
+        let [lx, ly, lz] = slab.n;
+        if out.dim() != (lz, ly, lx) {
+            out = Array3::<f32>::zeros((lz, ly, lx));
+        }
+        let t0 = Instant::now();
+        map_volume_kernel_into(field, settings.scheme, settings.edge, &kernel, &mut out)?;
+        stats.criterion_points += (core.len() * nx * ny) as u64;
+        // Each plane is summed in raster order by one thread: the sums do not depend on the
+        // thread count.
+        let plane_sums = |values: &Array3<f32>, term: &(dyn Fn(f64) -> Option<f64> + Sync)| {
+            core.clone()
+                .into_par_iter()
+                .map(|gz| {
+                    let (mut sum, mut count) = (0.0, 0u64);
                     for gy in 0..ny {
                         for gx in 0..nx {
-                            let v = f64::from(out[slab.local(gz, gy, gx)]);
-                            if !v.is_nan() {
-                                let p = criterion.strength(v).max(0.0);
-                                s += p * p;
-                                n += 1;
+                            if let Some(t) = term(f64::from(values[slab.local(gz, gy, gx)])) {
+                                sum += t;
+                                count += 1;
                             }
                         }
                     }
-                    plane_sq[gz] = s;
-                    plane_n[gz] = n;
-                }
+                    (sum, count)
+                })
+                .collect::<Vec<_>>()
+        };
+        if need_rms {
+            let sums = plane_sums(&out, &|v| {
+                (!v.is_nan()).then(|| {
+                    let p = criterion.strength(v).max(0.0);
+                    p * p
+                })
+            });
+            for (gz, (sum, count)) in core.clone().zip(sums) {
+                plane_sq[gz] = sum;
+                plane_n[gz] = count;
+                running_sq += sum;
             }
-            if need_eps {
-                map_volume_kernel_into(
-                    field,
-                    settings.scheme,
-                    settings.edge,
-                    &StrainSquared,
-                    &mut out,
-                )?;
-                for gz in core.clone() {
-                    let (mut s, mut n) = (0.0, 0u64);
-                    for gy in 0..ny {
-                        for gx in 0..nx {
-                            let v = f64::from(out[slab.local(gz, gy, gx)]);
-                            if !v.is_nan() {
-                                s += v;
-                                n += 1;
-                            }
+        }
+        let floor = match rule {
+            Threshold::Absolute(t) => t,
+            Threshold::RelativeToRms(k) => k * (running_sq / grid_points).sqrt(),
+            _ => unreachable!("refused by validate"),
+        };
+        points.retain(|p| p.passes(criterion, floor));
+        let found: Vec<Vec<Candidate>> = core
+            .clone()
+            .into_par_iter()
+            .map(|gz| {
+                let mut plane = Vec::new();
+                for gy in 0..ny {
+                    for gx in 0..nx {
+                        let l = slab.local(gz, gy, gx);
+                        let point = Candidate {
+                            flat: g.flat([gx, gy, gz]),
+                            raw: out[l],
+                            omega: [0.0; 3],
+                        };
+                        if !point.passes(criterion, floor) {
+                            continue;
                         }
+                        let w = volume_tensor_at(field, settings.scheme, settings.edge, l)?
+                            .map_or([0.0; 3], |t| t.vorticity());
+                        plane.push(Candidate {
+                            omega: w.map(|x| x as f32),
+                            ..point
+                        });
                     }
-                    plane_ss[gz] = s;
-                    plane_ssn[gz] = n;
                 }
+                Ok(plane)
+            })
+            .collect::<Result<_, vortcat_detect::DetectError>>()?;
+        points.extend(found.into_iter().flatten());
+        stats.detect_seconds += t0.elapsed().as_secs_f64();
+        if need_eps {
+            map_volume_kernel_into(
+                field,
+                settings.scheme,
+                settings.edge,
+                &StrainSquared,
+                &mut out,
+            )?;
+            let sums = plane_sums(&out, &|v| (!v.is_nan()).then_some(v));
+            for (gz, (sum, count)) in core.clone().zip(sums) {
+                plane_ss[gz] = sum;
+                plane_ssn[gz] = count;
             }
-            stats.detect_seconds += t0.elapsed().as_secs_f64();
         }
     }
+    drop(out);
     let threshold = match rule {
         Threshold::Absolute(t) => t,
         Threshold::RelativeToRms(k) => {
@@ -335,52 +408,42 @@ pub fn survey_tubes(
         }
     };
 
-    // Pass 2: points above the threshold, labelled across slabs.
-    let mut flat: Vec<u64> = Vec::new();
-    let mut strength: Vec<f32> = Vec::new();
-    let mut omega: Vec<[f32; 3]> = Vec::new();
+    // The points above the threshold, labelled slab by slab (from memory: no second read).
+    let t0 = Instant::now();
+    points.retain(|p| p.passes(criterion, threshold));
+    if points.len() as u64 >= u64::from(NONE) {
+        return Err(TubeError::TooManyVoxels {
+            count: points.len() as u64,
+            limit: u64::from(NONE),
+        });
+    }
     let mut labeller = Labeller::new(nx, ny, settings.periodic);
+    let mut next = 0;
+    let mut ids = Vec::new();
     for core in &slabs {
-        let t0 = Instant::now();
-        let slab = Slab::load(source, core.clone(), hw, pad, settings.periodic)?;
-        stats.read_seconds += t0.elapsed().as_secs_f64();
         let planes = core.len();
-        let mut ids = vec![NONE; planes * ny * nx];
-        if let Some(field) = slab.field.as_ref() {
-            let [lx, ly, lz] = slab.n;
-            let mut out = Array3::<f32>::zeros((lz, ly, lx));
-            let t0 = Instant::now();
-            map_volume_kernel_into(field, settings.scheme, settings.edge, &kernel, &mut out)?;
-            stats.criterion_points += (planes * nx * ny) as u64;
-            stats.detect_seconds += t0.elapsed().as_secs_f64();
-            for gz in core.clone() {
-                for gy in 0..ny {
-                    for gx in 0..nx {
-                        let l = slab.local(gz, gy, gx);
-                        let s = criterion.strength(f64::from(out[l]));
-                        if s.is_nan() || s <= threshold {
-                            continue;
-                        }
-                        if labeller.uf.len() as u64 >= u64::from(NONE) {
-                            return Err(TubeError::TooManyVoxels {
-                                count: labeller.uf.len() as u64,
-                                limit: u64::from(NONE),
-                            });
-                        }
-                        let id = labeller.uf.push();
-                        ids[((gz - core.start) * ny + gy) * nx + gx] = id;
-                        let w = volume_tensor_at(field, settings.scheme, settings.edge, l)?
-                            .map_or([0.0; 3], |t| t.vorticity());
-                        flat.push(g.flat([gx, gy, gz]));
-                        strength.push(s as f32);
-                        omega.push(w.map(|x| x as f32));
-                    }
-                }
+        ids.clear();
+        ids.resize(planes * ny * nx, NONE);
+        // Points are in raster order, so each slab's points follow the previous slab's.
+        while next < points.len() {
+            let [gx, gy, gz] = g.unflat(points[next].flat);
+            if gz >= core.end {
+                break;
             }
+            ids[((gz - core.start) * ny + gy) * nx + gx] = labeller.uf.push();
+            next += 1;
         }
         labeller.add_slab(&ids, planes, core.start);
     }
+    let flat: Vec<u64> = points.iter().map(|p| p.flat).collect();
+    let strength: Vec<f32> = points
+        .iter()
+        .map(|p| criterion.strength(f64::from(p.raw)) as f32)
+        .collect();
+    let omega: Vec<[f32; 3]> = points.iter().map(|p| p.omega).collect();
+    drop(points);
     labeller.finish(nz);
+    stats.detect_seconds += t0.elapsed().as_secs_f64();
     stats.voxels = flat.len() as u64;
 
     // Regions by root (the smallest id: raster order of the first point).

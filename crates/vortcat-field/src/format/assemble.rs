@@ -509,14 +509,24 @@ impl<S: ArrayStore> ArrayReader<S> {
                 Some(t) => a.index_axis_move(NdAxis(t), 0),
                 None => a,
             };
-            a.as_standard_layout()
-                .into_owned()
-                .into_shape_with_order(dims)
+            // A block read from a file is already in standard layout: reshape it in place
+            // (`as_standard_layout().into_owned()` would copy it).
+            let a = if a.is_standard_layout() {
+                a
+            } else {
+                a.as_standard_layout().into_owned()
+            };
+            a.into_shape_with_order(dims)
                 .map_err(|e| FieldError::Corrupt(format!("unexpected block shape: {e}")))
         };
         let (u, v, w) = (read(&u)?, read(&v)?, read(&w)?);
         for (name, a) in [("u", &u), ("v", &v), ("w", &w)] {
-            let infinite = a.iter().filter(|x| x.is_infinite()).count();
+            // Blocks are in standard layout (see `read`): count over the slice, which
+            // vectorises, rather than through the n-dimensional iterator.
+            let infinite: usize = match a.as_slice() {
+                Some(s) => s.iter().map(|x| usize::from(x.is_infinite())).sum(),
+                None => a.iter().filter(|x| x.is_infinite()).count(),
+            };
             if infinite > 0 {
                 return Err(FieldError::NonFinite {
                     component: name.to_string(),
