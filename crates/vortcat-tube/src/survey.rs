@@ -538,7 +538,8 @@ pub fn survey_tubes(
         }
     }
     let max_w = jobs.iter().fold(0.0_f64, |m, j| m.max(j.window));
-    let halo = (max_w / g.spacing[2].abs()).ceil() as usize + 2 + hw;
+    // Window, plus the γ_axial cylinder's axial reach, the interpolation cell and the stencil.
+    let halo = (max_w / g.spacing[2].abs()).ceil() as usize + crate::station::AXIAL_LAYERS + 2 + hw;
     stats.station_halo = halo;
     let slab_of = |j: &StationJob| -> usize {
         let fz = g.frac(j.centre)[2];
