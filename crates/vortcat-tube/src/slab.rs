@@ -58,15 +58,25 @@ impl Slab {
         let px = if periodic[0] { pad } else { 0 };
         let py = if periodic[1] { pad } else { 0 };
         let (nxl, nyl, nzl) = (nx + 2 * px, ny + 2 * py, (hi - lo) as usize);
-        let mut u = Array3::<f32>::zeros((nzl, nyl, nxl));
-        let mut v = Array3::<f32>::zeros((nzl, nyl, nxl));
-        let mut w = Array3::<f32>::zeros((nzl, nyl, nxl));
-        let mut flagged: Option<Array3<bool>> = None;
         // Runs of consecutive wrapped planes, read one block each.
         let wrapped: Vec<usize> = (lo..hi)
             .map(|g| g.rem_euclid(nz as isize) as usize)
             .collect();
-        let mut start = 0;
+        let contiguous = wrapped.windows(2).all(|p| p[1] == p[0] + 1);
+        let (mut u, mut v, mut w, mut flagged, mut start) = if contiguous && px == 0 && py == 0 {
+            // No wrap and no pad: the block read is the slab (no copy, no second allocation,
+            // which for a large slab also saves its page faults).
+            let planes = source.read_planes(wrapped[0]..wrapped[wrapped.len() - 1] + 1)?;
+            (planes.u, planes.v, planes.w, planes.flagged, wrapped.len())
+        } else {
+            (
+                Array3::<f32>::zeros((nzl, nyl, nxl)),
+                Array3::<f32>::zeros((nzl, nyl, nxl)),
+                Array3::<f32>::zeros((nzl, nyl, nxl)),
+                None,
+                0,
+            )
+        };
         while start < wrapped.len() {
             let mut end = start + 1;
             while end < wrapped.len() && wrapped[end] == wrapped[end - 1] + 1 {
