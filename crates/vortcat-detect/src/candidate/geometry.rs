@@ -126,13 +126,17 @@ pub(crate) fn nearest_invalid(
         }
         s.sqrt()
     };
-    // Few masked vectors: brute force. Many: expanding shells, pruned by distance.
-    if invalid.len() <= 4096 {
-        return invalid
+    // Expanding shells around the position, pruned by distance: cheap when a masked vector is
+    // near, which is the common case. The shells stop after as many cells as there are
+    // masked vectors, and the brute-force minimum over the list is taken instead: so the cost
+    // is never more than about twice the brute force, whatever the mask looks like.
+    let brute_force = || {
+        invalid
             .iter()
             .map(|&f| dist(space.coords(f)))
-            .min_by(f64::total_cmp);
-    }
+            .min_by(f64::total_cmp)
+    };
+    let mut budget = invalid.len().max(64);
     let hmin = (0..3)
         .filter(|&a| space.n[a] > 1)
         .map(|a| h[a])
@@ -162,6 +166,10 @@ pub(crate) fn nearest_invalid(
                         .collect()
                 };
                 for x in xs {
+                    if budget == 0 {
+                        return brute_force();
+                    }
+                    budget -= 1;
                     let cell = [x as usize, y as usize, z as usize];
                     if is_invalid(space.flat(cell)) {
                         best = best.min(dist(cell));
@@ -278,21 +286,29 @@ mod tests {
 
     #[test]
     fn nearest_invalid_brute_force_and_shell_search_agree() {
-        // 100×100 plane with 44 % masked vectors (more than 4096, so the shell search runs),
-        // compared with the brute-force minimum over the same list.
+        // 100×100 plane with 44 % masked vectors (the shells find one at once), 1 % (a few
+        // shells), and two masked vectors in a corner (the shells give up and the brute force
+        // answers), each compared with the brute-force minimum over the same list.
         let space = Space { n: [100, 100, 1] };
         let coords = Coords {
             origin: [0.0; 3],
             spacing: [0.5, -0.7, 1.0],
         };
-        let invalid: Vec<usize> = (0..10000)
-            .filter(|f| (f * 7919 + f / 100) % 9 < 4)
-            .collect();
-        assert!(invalid.len() > 4096);
+        for invalid in [
+            (0..10000)
+                .filter(|f| (f * 7919 + f / 100) % 9 < 4)
+                .collect::<Vec<usize>>(),
+            (0..10000).filter(|f| (f * 7919) % 100 == 3).collect(),
+            vec![0, 101],
+        ] {
+            check_nearest(&space, &coords, &invalid);
+        }
+    }
+
+    fn check_nearest(space: &Space, coords: &Coords, invalid: &[usize]) {
         let set: std::collections::HashSet<usize> = invalid.iter().copied().collect();
         for pos in [[10.3, 50.2, 0.0], [0.0, 0.0, 0.0], [99.0, 98.6, 0.0]] {
-            let fast =
-                nearest_invalid(pos, &space, &coords, &invalid, |f| set.contains(&f)).unwrap();
+            let fast = nearest_invalid(pos, space, coords, invalid, |f| set.contains(&f)).unwrap();
             let brute = invalid
                 .iter()
                 .map(|&f| {
