@@ -139,6 +139,11 @@ impl Window {
         let (nx, ny) = (ax.len() as i64, ay.len() as i64);
         let (u, v, valid) = (field.u(), field.v(), field.valid());
         let r2 = radius * radius;
+        // Nodes of the circle, plus a margin for its rim.
+        let expected = (std::f64::consts::PI * (rx + 1.0) * (ry + 1.0)).ceil() as usize;
+        for column in [&mut w.x, &mut w.y, &mut w.u, &mut w.v] {
+            column.reserve(expected);
+        }
         for j in j0..=j1 {
             let yc = ay.coordinate(j as f64);
             for i in i0..=i1 {
