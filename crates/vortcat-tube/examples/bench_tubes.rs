@@ -79,15 +79,16 @@ fn run(path: &Path, slab: usize) {
     let total = t0.elapsed().as_secs_f64();
     let s = out.stats;
     println!(
-        "points {} tubes {} stations {} total {:.2} s | detection {:.2} s for {} criterion evaluations = {:.2e} points/s (threads {}) | read {:.2} s trace {:.2} s fit {:.2} s | halo {} slabs {}",
+        "points {} tubes {} stations {} total {:.2} s | detection {:.2} s for {} criterion evaluations = {:.2e} points/s on {} threads = {:.2e} points/s per thread | read {:.2} s trace {:.2} s fit {:.2} s | halo {} slabs {}",
         s.points,
         out.tubes.len(),
         out.stations.len(),
         total,
         s.detect_seconds,
         s.criterion_points,
-        s.criterion_points as f64 / s.detect_seconds,
+        s.points as f64 / s.detect_seconds,
         rayon::current_num_threads(),
+        s.points as f64 / s.detect_seconds / rayon::current_num_threads() as f64,
         s.read_seconds,
         s.trace_seconds,
         s.fit_seconds,
