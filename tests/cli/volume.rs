@@ -45,19 +45,37 @@ fn value(rows: &[csv::StringRecord], row: usize, name: &str) -> f64 {
         .unwrap_or_else(|e| panic!("{name} in row {row}: {e}"))
 }
 
+/// `vortcat synth --scenario tubes --out DATA EXTRA...`.
+fn synth_tubes(data: &Path, extra: &[&str]) {
+    let mut args = vec![
+        "synth".to_string(),
+        "--scenario".into(),
+        "tubes".into(),
+        "--out".into(),
+        data.to_string_lossy().into_owned(),
+    ];
+    args.extend(extra.iter().map(|s| s.to_string()));
+    let run = vortcat(args);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+}
+
+/// The row of `tubes` whose centroid (near z = 0) is closest to truth row `t`'s axis point at
+/// z = 0.
+fn nearest_tube(truth: &[csv::StringRecord], t: usize, tubes: &[csv::StringRecord]) -> usize {
+    let (tx, ty) = (value(truth, t, "x"), value(truth, t, "y"));
+    let distance =
+        |r: usize| (value(tubes, r, "centroid_x") - tx).hypot(value(tubes, r, "centroid_y") - ty);
+    (1..tubes.len())
+        .min_by(|&a, &b| distance(a).total_cmp(&distance(b)))
+        .expect("at least one tube")
+}
+
 #[test]
 fn tubes_are_found_with_their_parameters_whatever_the_slab_and_threads() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
     // Default synth data: 3 % velocity noise, 1 % missing vectors, 0.2 % outliers.
-    let run = vortcat([
-        "synth",
-        "--scenario",
-        "tubes",
-        "--out",
-        data.to_str().unwrap(),
-    ]);
-    assert_eq!(run.code, 0, "{}", run.stderr);
+    synth_tubes(&data, &[]);
     let base = dir.path().join("base");
     survey(&data, &base, &["--threads", "2"]);
 
@@ -67,16 +85,7 @@ fn tubes_are_found_with_their_parameters_whatever_the_slab_and_threads() {
     assert_eq!(tubes.len() - 1, 2, "two tubes: {tubes:?}");
     assert!(stations.len() > 10, "stations: {}", stations.len() - 1);
     for t in 1..truth.len() {
-        // The tube whose centroid (near z = 0) is closest to the truth axis's point at z = 0.
-        let (tx, ty) = (value(&truth, t, "x"), value(&truth, t, "y"));
-        let found = (1..tubes.len())
-            .min_by(|&a, &b| {
-                let d = |r: usize| {
-                    (value(&tubes, r, "centroid_x") - tx).hypot(value(&tubes, r, "centroid_y") - ty)
-                };
-                d(a).total_cmp(&d(b))
-            })
-            .unwrap();
+        let found = nearest_tube(&truth, t, &tubes);
         let circ = value(&tubes, found, "circulation");
         let rc = value(&tubes, found, "core_radius");
         let want_circ = value(&truth, t, "circulation");
@@ -160,20 +169,10 @@ fn axial_strain_matches_the_superposed_field_on_clean_data() {
     // stations covering slightly less of the axis than the truth's median.
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    let run = vortcat([
-        "synth",
-        "--scenario",
-        "tubes",
-        "--out",
-        data.to_str().unwrap(),
-        "--noise",
-        "0",
-        "--missing",
-        "0",
-        "--outliers",
-        "0",
-    ]);
-    assert_eq!(run.code, 0, "{}", run.stderr);
+    synth_tubes(
+        &data,
+        &["--noise", "0", "--missing", "0", "--outliers", "0"],
+    );
     let out = dir.path().join("out");
     survey(&data, &out, &[]);
     let truth = table(&data.join("truth.csv"));
@@ -183,16 +182,8 @@ fn axial_strain_matches_the_superposed_field_on_clean_data() {
     for t in 1..truth.len() {
         let want = value(&truth, t, "axial_strain_rate");
         let own = value(&truth, t, "strain_rate");
-        // The closest tube in γ_axial would make the test circular: match by position.
-        let (tx, ty) = (value(&truth, t, "x"), value(&truth, t, "y"));
-        let found = (1..tubes.len())
-            .min_by(|&a, &b| {
-                let d = |r: usize| {
-                    (value(&tubes, r, "centroid_x") - tx).hypot(value(&tubes, r, "centroid_y") - ty)
-                };
-                d(a).total_cmp(&d(b))
-            })
-            .unwrap();
+        // Matched by position (matching by γ_axial would make the test circular).
+        let found = nearest_tube(&truth, t, &tubes);
         let gamma = value(&tubes, found, "strain_rate_axial");
         eprintln!("tube {t}: γ_axial {gamma:.5} (truth {want:.5}; own γ {own:.5})");
         assert!(

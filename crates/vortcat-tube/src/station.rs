@@ -36,6 +36,8 @@
 
 use serde::Serialize;
 use vortcat_detect::gradient::volume_tensor_at;
+
+use crate::survey::median;
 use vortcat_detect::{EdgeOrder, GradientScheme, Tensor3};
 use vortcat_field::VolumeField;
 use vortcat_fit::{fit_and_select, CirculationGuess, FitSettings, InitialGuess, Model, Window};
@@ -257,8 +259,8 @@ fn robust_slope(samples: Vec<(f64, f64)>) -> Option<f64> {
             .iter()
             .map(|&(z, u)| u - (intercept + slope * z))
             .collect();
-        let centre = median(residuals.clone());
-        let mad = median(residuals.iter().map(|r| (r - centre).abs()).collect());
+        let centre = median(residuals.clone())?;
+        let mad = median(residuals.iter().map(|r| (r - centre).abs()).collect())?;
         let limit = 3.5 * 1.4826 * mad;
         if limit.is_nan() || limit <= 0.0 {
             return Some(slope);
@@ -293,16 +295,6 @@ fn line_fit(samples: &[(f64, f64)]) -> Option<(f64, f64)> {
     }
     let slope = szu / szz;
     (szz > 0.0 && slope.is_finite()).then_some((mean_u - slope * mean_z, slope))
-}
-
-fn median(mut v: Vec<f64>) -> f64 {
-    v.sort_by(f64::total_cmp);
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    }
 }
 
 /// Physical-constant context of a station computation.

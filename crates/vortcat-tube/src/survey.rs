@@ -210,7 +210,8 @@ pub struct TubeSurvey {
     pub stats: SurveyStats,
 }
 
-fn median(mut v: Vec<f64>) -> Option<f64> {
+/// Median of the finite values; `None` when there is none.
+pub(crate) fn median(mut v: Vec<f64>) -> Option<f64> {
     v.retain(|x| x.is_finite());
     if v.is_empty() {
         return None;

@@ -12,7 +12,7 @@
 mod common;
 
 use approx::assert_relative_eq;
-use common::{axis_deg, field, grid, TubeSpec};
+use common::{field, grid, tilted_burgers};
 use vortcat_tube::{survey_tubes, Kolmogorov, MemoryVolume, TubeSettings};
 
 fn mean_strain_squared(n: usize, origin: f64, velocity: impl Fn([f64; 3]) -> [f64; 3]) -> f64 {
@@ -73,15 +73,7 @@ fn dissipation_of_a_pure_axisymmetric_strain_is_three_nu_gamma_squared() {
 fn dissipation_of_a_tilted_burgers_vortex_matches_the_exact_gradient() {
     // The validation vortex (rc = 5 spacings, γ = 0.04, ν = γ rc²/4): S:S = 3γ²/2 from the
     // strain plus 2 S_rθ² from the swirl, varying across the core.
-    let (rc, gamma) = (5.0, 0.04);
-    let nu = gamma * rc * rc / 4.0;
-    let spec = TubeSpec {
-        point: [0.3, -0.7, 0.2],
-        axis: axis_deg(35.0, 20.0),
-        circulation: 50.0,
-        core_radius: rc,
-        strain: gamma,
-    };
+    let (spec, nu) = tilted_burgers();
     let (n, origin) = (48, -23.5);
     let f = field(grid([n; 3], [origin; 3], 1.0), |x| spec.velocity(x));
     let settings = TubeSettings {

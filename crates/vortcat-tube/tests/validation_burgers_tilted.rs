@@ -12,21 +12,14 @@
 
 mod common;
 
-use common::{angle_deg, axis_deg, field, grid, TubeSpec};
+use common::{angle_deg, field, grid, tilted_burgers};
 use vortcat_tube::{survey_tubes, MemoryVolume, TubeSettings};
 
 #[test]
 fn tilted_burgers_vortex_is_recovered() {
     // rc = 5 spacings, γ = 0.04, ν = γ rc²/4 = 0.25 (balance), Γ/ν = 200.
-    let (rc, gamma) = (5.0, 0.04);
-    let nu = gamma * rc * rc / 4.0;
-    let spec = TubeSpec {
-        point: [0.3, -0.7, 0.2],
-        axis: axis_deg(35.0, 20.0),
-        circulation: 50.0,
-        core_radius: rc,
-        strain: gamma,
-    };
+    let (spec, nu) = tilted_burgers();
+    let (rc, gamma) = (spec.core_radius, spec.strain);
     let f = field(grid([64; 3], [-31.5; 3], 1.0), |x| spec.velocity(x));
     let settings = TubeSettings {
         viscosity: Some(nu),

@@ -57,6 +57,21 @@ impl TubeSpec {
     }
 }
 
+/// The tilted Burgers vortex of the validation tests: rc = 5 spacings, γ = 0.04, axis at
+/// θ = 35°, φ = 20°, Γ = 50, and the viscosity ν = γ rc²/4 of its stretching–diffusion
+/// balance (Burgers 1948). Returns the tube and ν.
+pub fn tilted_burgers() -> (TubeSpec, f64) {
+    let (rc, gamma) = (5.0, 0.04);
+    let spec = TubeSpec {
+        point: [0.3, -0.7, 0.2],
+        axis: axis_deg(35.0, 20.0),
+        circulation: 50.0,
+        core_radius: rc,
+        strain: gamma,
+    };
+    (spec, gamma * rc * rc / 4.0)
+}
+
 /// A cubic-cell grid of `n = [nx, ny, nz]` points, spacing `h`, origin `origin`.
 pub fn grid(n: [usize; 3], origin: [f64; 3], h: f64) -> Grid {
     Grid::volume(
