@@ -11,8 +11,9 @@ use vortcat_field::{Grid, SnapshotReader, VolumeField, VolumePlanes};
 
 use crate::error::TubeError;
 
-/// A volume read in blocks of z-planes.
-pub trait VolumeSource {
+/// A volume read in blocks of z-planes. `Send`: the survey reads the next slab on a thread of
+/// its own while it works on the current one.
+pub trait VolumeSource: Send {
     /// The grid of the whole volume (3D).
     fn grid(&self) -> &Grid;
     /// Planes `z` (global indices, within `0..nz`), arrays `[iz − z.start, iy, ix]`.

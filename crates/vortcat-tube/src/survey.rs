@@ -13,11 +13,13 @@
 //!
 //! Per-plane sums are added in plane order and stations are computed from data that do not
 //! depend on where the slab boundaries are, so the results are the same for every slab size
-//! and thread count. Peak memory: one slab with its halo and one criterion array of its size,
-//! the points kept by the detection pass (above the floor, which rises from slab to slab), and
-//! per-plane sums.
+//! and thread count. Each pass reads the next slab on a thread of its own while the current
+//! one is worked on. Peak memory: two slabs with their halos and one criterion array of a
+//! slab's size, the points kept by the detection pass (above the floor, which rises from slab
+//! to slab), and per-plane sums.
 
 use std::collections::HashMap;
+use std::ops::Range;
 use std::time::Instant;
 
 use ndarray::Array3;
@@ -225,6 +227,46 @@ pub(crate) fn median(mut v: Vec<f64>) -> Option<f64> {
     })
 }
 
+/// Loads the slabs `cores` (`(slab number, core planes)`, with `halo` and `pad`) on a reader
+/// thread, one ahead of `each`, which gets them in order on the calling thread: reading the
+/// next slab overlaps the work on this one (reading is serial, the work is spread over the
+/// rayon pool). The channel is a rendezvous, so at most two slabs are held at once: the one
+/// being worked on and the one just read. Returns the seconds the reader spent loading.
+fn for_each_slab(
+    source: &mut dyn VolumeSource,
+    cores: &[(usize, Range<usize>)],
+    halo: usize,
+    pad: usize,
+    periodic: [bool; 3],
+    mut each: impl FnMut(usize, Slab) -> Result<(), TubeError>,
+) -> Result<f64, TubeError> {
+    std::thread::scope(|scope| {
+        let (to_worker, from_reader) =
+            std::sync::mpsc::sync_channel::<(usize, Result<Slab, TubeError>, f64)>(0);
+        scope.spawn(move || {
+            for (k, core) in cores {
+                let t0 = Instant::now();
+                let slab = Slab::load(source, core.clone(), halo, pad, periodic);
+                let failed = slab.is_err();
+                // A closed channel means the worker stopped on an error: stop reading.
+                if to_worker
+                    .send((*k, slab, t0.elapsed().as_secs_f64()))
+                    .is_err()
+                    || failed
+                {
+                    break;
+                }
+            }
+        });
+        let mut read = 0.0;
+        for (k, slab, seconds) in from_reader {
+            read += seconds;
+            each(k, slab?)?;
+        }
+        Ok(read)
+    })
+}
+
 fn geom(source: &dyn VolumeSource, periodic: [bool; 3]) -> Result<Geom, TubeError> {
     let g = source.grid();
     let z = g.z().ok_or(TubeError::NotAVolume { found: g.ndim() })?;
@@ -282,12 +324,11 @@ pub fn survey_tubes(
     let mut running_sq = 0.0_f64;
     let mut points: Vec<Candidate> = Vec::new();
     let mut out = Array3::<f32>::zeros((0, 0, 0));
-    for core in &slabs {
-        let t0 = Instant::now();
-        let slab = Slab::load(source, core.clone(), hw, pad, settings.periodic)?;
-        stats.read_seconds += t0.elapsed().as_secs_f64();
+    let all_slabs: Vec<(usize, Range<usize>)> = slabs.iter().cloned().enumerate().collect();
+    let read = for_each_slab(source, &all_slabs, hw, pad, settings.periodic, |k, slab| {
+        let core = &slabs[k];
         let Some(field) = slab.field.as_ref() else {
-            continue;
+            return Ok(());
         };
         let [lx, ly, lz] = slab.n;
         if out.dim() != (lz, ly, lx) {
@@ -377,7 +418,9 @@ pub fn survey_tubes(
                 plane_ssn[gz] = count;
             }
         }
-    }
+        Ok(())
+    })?;
+    stats.read_seconds += read;
     drop(out);
     let threshold = match rule {
         Threshold::Absolute(t) => t,
@@ -569,23 +612,32 @@ pub fn survey_tubes(
         kolmogorov: kolmogorov.map(|k| (k.eta, k.tau)),
     };
     let mut results: Vec<Option<Station>> = vec![None; jobs.len()];
-    for (k, core) in slabs.iter().enumerate() {
-        if per_slab[k].is_empty() {
-            continue;
-        }
-        let t0 = Instant::now();
-        let slab = Slab::load(source, core.clone(), halo, pad, settings.periodic)?;
-        stats.read_seconds += t0.elapsed().as_secs_f64();
-        let t0 = Instant::now();
-        let done: Vec<(usize, Station)> = per_slab[k]
-            .par_iter()
-            .map(|&i| (i, compute(&ctx, &slab, &jobs[i])))
-            .collect();
-        stats.fit_seconds += t0.elapsed().as_secs_f64();
-        for (i, s) in done {
-            results[i] = Some(s);
-        }
-    }
+    let station_slabs: Vec<(usize, Range<usize>)> = slabs
+        .iter()
+        .cloned()
+        .enumerate()
+        .filter(|(k, _)| !per_slab[*k].is_empty())
+        .collect();
+    let read = for_each_slab(
+        source,
+        &station_slabs,
+        halo,
+        pad,
+        settings.periodic,
+        |k, slab| {
+            let t0 = Instant::now();
+            let done: Vec<(usize, Station)> = per_slab[k]
+                .par_iter()
+                .map(|&i| (i, compute(&ctx, &slab, &jobs[i])))
+                .collect();
+            stats.fit_seconds += t0.elapsed().as_secs_f64();
+            for (i, s) in done {
+                results[i] = Some(s);
+            }
+            Ok(())
+        },
+    )?;
+    stats.read_seconds += read;
     let stations: Vec<Station> = results.into_iter().flatten().collect();
 
     // Tube summaries.
