@@ -10,24 +10,26 @@ use vortcat_field::InputSpec;
 
 use crate::error::ReportError;
 
-/// One catalog row (one vortex), as written by `vortcat survey`. Empty fields are `None`.
+/// One catalog row (one vortex), as written by `vortcat survey` and read back here; the
+/// columns are described in `docs/catalog.md`. `None` is an empty CSV field and a JSON `null`:
+/// the value does not apply (e.g. strain rate for a Lamb–Oseen fit) or could not be computed.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct Vortex {
     /// Snapshot identifier `file#index`.
     pub snapshot: String,
-    /// Number within the snapshot, from 1.
+    /// Vortex number within the snapshot, from 1, in detection order.
     pub vortex: usize,
-    /// Source file.
+    /// Source file as given on the command line (or found in a folder).
     pub file: String,
     /// Index in the file's stack.
     pub index: usize,
-    /// Snapshot time.
+    /// Snapshot time, when the file records one.
     pub time: Option<f64>,
     /// Fitted centre x.
     pub x: Option<f64>,
     /// Fitted centre y.
     pub y: Option<f64>,
-    /// +1 counter-clockwise, −1 clockwise, 0 undetermined.
+    /// +1 counter-clockwise in x–y, −1 clockwise, 0 undetermined.
     pub sense: i8,
     /// Chosen model name (`lamb-oseen`, `burgers`, `rankine`, `vatistas`), empty if not fitted.
     pub model: String,
@@ -41,13 +43,13 @@ pub struct Vortex {
     pub core_radius: Option<f64>,
     /// Standard error of rc.
     pub core_radius_err: Option<f64>,
-    /// Strain rate γ (Burgers).
+    /// Strain rate γ from the fitted inflow (Burgers).
     pub strain_rate: Option<f64>,
     /// Standard error of γ.
     pub strain_rate_err: Option<f64>,
-    /// 4ν/rc².
+    /// Strain rate implied by the core radius and viscosity, 4ν/rc².
     pub strain_rate_viscous: Option<f64>,
-    /// γ·rc²/(4ν).
+    /// Effective viscosity γ·rc²/4 over ν (1 for a Burgers vortex in balance).
     pub viscosity_ratio: Option<f64>,
     /// Peak azimuthal velocity.
     pub peak_velocity: Option<f64>,
@@ -55,27 +57,27 @@ pub struct Vortex {
     pub conv_u: Option<f64>,
     /// Convection velocity y.
     pub conv_v: Option<f64>,
-    /// Γ/ν.
+    /// Circulation Reynolds number Γ/ν.
     pub reynolds: Option<f64>,
-    /// Valid vectors in the window.
+    /// Vectors in the fitting window.
     pub n_points: usize,
     /// RMS velocity residual.
     pub residual_rms: Option<f64>,
-    /// Coefficient of determination.
+    /// Coefficient of determination of the velocity in the window.
     pub r2: Option<f64>,
-    /// p-value of the inflow term.
+    /// p-value of the inflow term: likelihood-ratio test of Burgers against Lamb–Oseen.
     pub inflow_p_value: Option<f64>,
     /// Fitting-window radius.
     pub window_radius: Option<f64>,
-    /// Detection centroid x.
+    /// Detection centre x (criterion-weighted centroid).
     pub detect_x: Option<f64>,
-    /// Detection centroid y.
+    /// Detection centre y.
     pub detect_y: Option<f64>,
-    /// Peak criterion value of the region.
+    /// Peak criterion value in the detected region.
     pub criterion_peak: Option<f64>,
-    /// Equivalent radius of the detected region.
+    /// Equivalent radius √(area/π) of the detected region.
     pub equivalent_radius: Option<f64>,
-    /// Quality flags separated by `;`.
+    /// Quality flags, separated by `;`; empty when none.
     pub flags: String,
 }
 

@@ -4,77 +4,12 @@
 use std::io::Write;
 use std::path::Path;
 
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 
 /// One catalog row. `None` is an empty CSV field and a JSON `null`: the value does not apply
-/// (e.g. strain rate for a Lamb–Oseen fit) or could not be computed.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct CatalogRow {
-    /// Snapshot identifier `file#index`.
-    pub snapshot: String,
-    /// Vortex number within the snapshot, from 1, in detection order.
-    pub vortex: usize,
-    /// Source file as given on the command line (or found in a folder).
-    pub file: String,
-    /// Index in the file's stack.
-    pub index: usize,
-    /// Snapshot time, when the file records one.
-    pub time: Option<f64>,
-    /// Fitted centre x.
-    pub x: Option<f64>,
-    /// Fitted centre y.
-    pub y: Option<f64>,
-    /// +1 counter-clockwise in x–y, −1 clockwise.
-    pub sense: i8,
-    /// Chosen model.
-    pub model: String,
-    /// Fit status.
-    pub status: String,
-    /// Circulation Γ.
-    pub circulation: Option<f64>,
-    /// Standard error of Γ.
-    pub circulation_err: Option<f64>,
-    /// Core radius rc.
-    pub core_radius: Option<f64>,
-    /// Standard error of rc.
-    pub core_radius_err: Option<f64>,
-    /// Strain rate γ from the fitted inflow (Burgers).
-    pub strain_rate: Option<f64>,
-    /// Standard error of γ.
-    pub strain_rate_err: Option<f64>,
-    /// Strain rate implied by the core radius and viscosity, 4ν/rc².
-    pub strain_rate_viscous: Option<f64>,
-    /// Effective viscosity γ·rc²/4 over ν (1 for a Burgers vortex in balance).
-    pub viscosity_ratio: Option<f64>,
-    /// Peak azimuthal velocity.
-    pub peak_velocity: Option<f64>,
-    /// Convection velocity x.
-    pub conv_u: Option<f64>,
-    /// Convection velocity y.
-    pub conv_v: Option<f64>,
-    /// Circulation Reynolds number Γ/ν.
-    pub reynolds: Option<f64>,
-    /// Vectors in the fitting window.
-    pub n_points: usize,
-    /// RMS velocity residual.
-    pub residual_rms: Option<f64>,
-    /// Coefficient of determination of the velocity in the window.
-    pub r2: Option<f64>,
-    /// p-value of the inflow term: likelihood-ratio test of Burgers against Lamb–Oseen.
-    pub inflow_p_value: Option<f64>,
-    /// Fitting-window radius.
-    pub window_radius: Option<f64>,
-    /// Detection centre x (criterion-weighted centroid).
-    pub detect_x: f64,
-    /// Detection centre y.
-    pub detect_y: f64,
-    /// Peak criterion value in the detected region.
-    pub criterion_peak: f64,
-    /// Equivalent radius √(area/π) of the detected region.
-    pub equivalent_radius: f64,
-    /// Quality flags, separated by `;`; empty when none.
-    pub flags: String,
-}
+/// (e.g. strain rate for a Lamb–Oseen fit) or could not be computed. The type is the report
+/// crate's, which reads catalogs back: one definition of the columns for writer and reader.
+pub use vortcat_report::Vortex as CatalogRow;
 
 /// Column, unit kind and description, in column order.
 pub const COLUMNS: &[(&str, &str, &str)] = &[
@@ -256,10 +191,10 @@ mod tests {
             r2: Some(0.99),
             inflow_p_value: None,
             window_radius: Some(1.5),
-            detect_x: 1.0,
-            detect_y: 2.0,
-            criterion_peak: 3.0,
-            equivalent_radius: 0.4,
+            detect_x: Some(1.0),
+            detect_y: Some(2.0),
+            criterion_peak: Some(3.0),
+            equivalent_radius: Some(0.4),
             flags: String::new(),
         };
         // serde's own header (declaration order) must equal the one written from COLUMNS.

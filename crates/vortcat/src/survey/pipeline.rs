@@ -109,10 +109,10 @@ fn row(
         r2: None,
         inflow_p_value: None,
         window_radius: finite(radius),
-        detect_x: c.centroid[0],
-        detect_y: c.centroid[1],
-        criterion_peak: c.peak_value,
-        equivalent_radius: c.equivalent_radius,
+        detect_x: finite(c.centroid[0]),
+        detect_y: finite(c.centroid[1]),
+        criterion_peak: finite(c.peak_value),
+        equivalent_radius: finite(c.equivalent_radius),
         flags: String::new(),
     };
     let mut flags: Vec<String> = candidate_flags(c).into_iter().map(str::to_string).collect();
