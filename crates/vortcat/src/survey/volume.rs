@@ -169,7 +169,11 @@ pub const STATION_COLUMNS: &[(&str, &str, &str)] = &[
         "1/time",
         "strain rate from the fitted inflow (Burgers)",
     ),
-    ("strain_rate_axial", "1/time", "axial strain rate e.S.e"),
+    (
+        "strain_rate_axial",
+        "1/time",
+        "axial strain rate e.S.e (mean over a short cylinder about the centre)",
+    ),
     ("balance_ratio", "", "rc / sqrt(4 nu / strain_rate_axial)"),
     ("conv_u", "velocity", "convection velocity x"),
     ("conv_v", "velocity", "convection velocity y"),
