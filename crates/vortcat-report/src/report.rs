@@ -442,7 +442,7 @@ fn overview(page: &mut String, survey: &Survey, detail: &[(usize, Reason)], n_ma
     let inputs = &run.inputs;
     let _ = writeln!(
         page,
-        "<details><summary>Inputs ({} files)</summary><div class=\"wrap\"><table class=\"sortable\"><thead><tr><th>path</th><th>bytes</th><th>snapshots</th><th>SHA-256</th><th>error</th></tr></thead><tbody>",
+        "<details><summary>Inputs ({} files)</summary><div class=\"wrap\"><table class=\"sortable\"><thead><tr><th>path</th><th>bytes</th><th>snapshots</th><th>BLAKE3 (first 16 hex digits)</th><th>error</th></tr></thead><tbody>",
         inputs.len()
     );
     for i in inputs.iter().take(1000) {

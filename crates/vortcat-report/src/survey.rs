@@ -179,7 +179,7 @@ pub struct InputRecord {
     pub path: String,
     /// Size in bytes.
     pub bytes: u64,
-    /// BLAKE3 hash of the content (`sha256` in manifests before version 0.1 stored SHA-256).
+    /// BLAKE3 hash of the content (manifests of earlier builds call it `sha256` and hold a SHA-256).
     #[serde(alias = "sha256")]
     pub blake3: String,
     /// Snapshots in the file.
