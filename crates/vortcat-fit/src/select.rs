@@ -14,10 +14,10 @@
 use serde::{Deserialize, Serialize};
 
 use crate::error::FitError;
-use crate::fit::fit_model;
+use crate::fit::{fit_model, fit_model_warm};
 use crate::initial::InitialGuess;
 use crate::model::{Model, ModelKind};
-use crate::result::FitResult;
+use crate::result::{FitResult, FitStatus};
 use crate::settings::FitSettings;
 use crate::window::Window;
 
@@ -125,10 +125,26 @@ pub fn fit_and_select(
     if models.is_empty() {
         return Err(FitError::NoModels);
     }
-    let fits = models
-        .iter()
-        .map(|m| fit_model(m, window, guess, settings))
-        .collect::<Result<Vec<_>, _>>()?;
+    // Lamb–Oseen and Burgers are nested: once one of them has converged, the other starts from
+    // its optimum (see `fit_model_warm`). Other pairs start independently.
+    let gaussian = |k: ModelKind| matches!(k, ModelKind::LambOseen | ModelKind::Burgers);
+    let mut fits: Vec<FitResult> = Vec::with_capacity(models.len());
+    for m in models {
+        let previous = fits.iter().find(|f| {
+            gaussian(f.model)
+                && gaussian(m.kind())
+                && f.status == FitStatus::Converged
+                && f.circulation().is_finite()
+                && f.core_radius().is_finite()
+                && f.core_radius() > 0.0
+                && f.parameters.centre.iter().all(|c| c.is_finite())
+        });
+        let fit = match previous {
+            Some(p) => fit_model_warm(m, window, guess, p, settings)?,
+            None => fit_model(m, window, guess, settings)?,
+        };
+        fits.push(fit);
+    }
     let scores: Vec<f64> = fits
         .iter()
         .map(|f| f.information_criterion(settings.criterion))
