@@ -14,7 +14,8 @@
 //!   bounds, an optional robust [`Loss`] and optional PIV window averaging ([`PivAveraging`]).
 //! - [`FitResult`] carries parameters, standard errors from `σ²(JᵀJ)⁻¹`, RMS residual, R²,
 //!   condition number, derived quantities, a [`FitStatus`] and [`Flag`]s.
-//! - [`fit_and_select`] fits several models and chooses by AIC or BIC ([`Selection`]).
+//! - [`fit_and_select`] fits several models and chooses by AIC or BIC ([`Selection`]); of the
+//!   nested pair Lamb–Oseen/Burgers, the second starts from the first one's optimum.
 //!
 //! Non-convergence is reported in the result, never as an error; errors ([`FitError`]) are for
 //! inputs that make a fit meaningless. The crate never prints; it logs through `log` at most.
