@@ -42,17 +42,43 @@ impl Space {
     }
 }
 
-/// Position lookup in a raster-sorted cell list: the offset of every grid row's first cell, so
-/// that finding a neighbour is a search within one row (a handful of cells) instead of within
-/// the whole list. Memory is one offset per grid row, not per grid point.
+/// Grids up to this many points get a direct position table (4 bytes a point, half of what
+/// the f64 criterion field of a plane already takes); larger ones the per-row search.
+const DENSE_LIMIT: usize = 1 << 24;
+
+/// Position lookup in a raster-sorted cell list. On grids up to [`DENSE_LIMIT`] points, a
+/// table from grid point to position (one read per lookup; labelling a plane is dominated by
+/// these lookups). Beyond, the offset of every grid row's first cell, so that finding a
+/// neighbour is a search within one row (a handful of cells) instead of within the whole
+/// list, with memory of one offset per grid row.
 pub(crate) struct RowIndex<'a> {
     cells: &'a [usize],
     starts: Vec<usize>,
     nx: usize,
+    dense: Option<Vec<u32>>,
 }
 
 impl<'a> RowIndex<'a> {
     pub fn new(cells: &'a [usize], space: &Space) -> Self {
+        let nx = space.n[0].max(1);
+        let points = space.n[0] * space.n[1] * space.n[2];
+        if points <= DENSE_LIMIT {
+            let mut dense = vec![u32::MAX; points];
+            for (position, &flat) in cells.iter().enumerate() {
+                dense[flat] = position as u32;
+            }
+            return Self {
+                cells,
+                starts: Vec::new(),
+                nx,
+                dense: Some(dense),
+            };
+        }
+        Self::by_rows(cells, space)
+    }
+
+    /// The per-row index (what [`RowIndex::new`] builds for a large grid).
+    fn by_rows(cells: &'a [usize], space: &Space) -> Self {
         let nx = space.n[0].max(1);
         let rows = space.n[1] * space.n[2];
         let mut starts = Vec::with_capacity(rows + 1);
@@ -64,12 +90,23 @@ impl<'a> RowIndex<'a> {
             }
             starts.push(next);
         }
-        Self { cells, starts, nx }
+        Self {
+            cells,
+            starts,
+            nx,
+            dense: None,
+        }
     }
 
     /// Position of `flat` in the cell list, if it is there.
     #[inline]
     pub fn position(&self, flat: usize) -> Option<usize> {
+        if let Some(dense) = &self.dense {
+            return dense
+                .get(flat)
+                .filter(|&&p| p != u32::MAX)
+                .map(|&p| p as usize);
+        }
         let row = flat / self.nx;
         let (lo, hi) = (*self.starts.get(row)?, *self.starts.get(row + 1)?);
         self.cells[lo..hi].binary_search(&flat).ok().map(|i| i + lo)
@@ -257,18 +294,24 @@ mod tests {
     #[test]
     fn row_index_finds_exactly_the_listed_cells() {
         // Every grid point is looked up in a sparse list spanning rows and planes, including
-        // empty rows and the last row: a hit exactly for listed cells, at their position.
+        // empty rows and the last row: a hit exactly for listed cells, at their position; by
+        // the direct table (small grid) and by the per-row search (as for a large grid).
         let space = Space { n: [4, 3, 2] };
         let cells = vec![1, 2, 3, 9, 13, 14, 23];
-        let index = RowIndex::new(&cells, &space);
-        for flat in 0..24 {
-            assert_eq!(
-                index.position(flat),
-                cells.iter().position(|&c| c == flat),
-                "flat {flat}"
-            );
+        let table = RowIndex::new(&cells, &space);
+        assert!(table.dense.is_some());
+        let rows = RowIndex::by_rows(&cells, &space);
+        assert!(rows.dense.is_none());
+        for index in [&table, &rows] {
+            for flat in 0..24 {
+                assert_eq!(
+                    index.position(flat),
+                    cells.iter().position(|&c| c == flat),
+                    "flat {flat}"
+                );
+            }
+            assert_eq!(index.position(24), None, "outside the grid");
         }
-        assert_eq!(index.position(24), None, "outside the grid");
     }
 
     #[test]
