@@ -101,6 +101,12 @@ const fn full_index(k: usize) -> usize {
 /// `K` stored columns: x0, y0, Γ, rc, [γ], [e1, e2, ω]; `V` the variant; `BG` background
 /// gradient; `R` robust loss.
 #[inline(never)]
+/// Compiled twice, for the baseline x86-64 and for AVX2, chosen at run time (`multiversion`):
+/// the per-sample loop runs four lanes wide instead of two. FMA is not enabled and the
+/// accumulation order is fixed by the source, so every lane computes exactly what the
+/// baseline code does: results are bit-identical on machines with and without AVX2 (checked:
+/// the same catalog bytes for the 30,000 vortices of the survey benchmark with both builds).
+#[multiversion::multiversion(targets("x86_64+avx2+avx"))]
 fn run<const K: usize, const V: u8, const BG: bool, const R: bool>(
     s: &Samples<'_>,
     viscosity: f64,
