@@ -62,25 +62,21 @@ trait Component: Copy {
     fn is_infinite(self) -> bool;
 }
 
-impl Component for f64 {
-    const NAN: Self = f64::NAN;
-    fn is_nan(self) -> bool {
-        f64::is_nan(self)
-    }
-    fn is_infinite(self) -> bool {
-        f64::is_infinite(self)
-    }
+macro_rules! component {
+    ($t:ty) => {
+        impl Component for $t {
+            const NAN: Self = <$t>::NAN;
+            fn is_nan(self) -> bool {
+                <$t>::is_nan(self)
+            }
+            fn is_infinite(self) -> bool {
+                <$t>::is_infinite(self)
+            }
+        }
+    };
 }
-
-impl Component for f32 {
-    const NAN: Self = f32::NAN;
-    fn is_nan(self) -> bool {
-        f32::is_nan(self)
-    }
-    fn is_infinite(self) -> bool {
-        f32::is_infinite(self)
-    }
-}
+component!(f64);
+component!(f32);
 
 fn standard_layout<A: Clone, D: ndarray::Dimension>(a: &mut ndarray::Array<A, D>) {
     if !a.is_standard_layout() {
