@@ -71,3 +71,23 @@ pub fn assert_one_line_error(run: &Run, expected: &[&str]) {
     }
     assert!(run.stdout.is_empty(), "stdout: {}", run.stdout);
 }
+
+/// `vortcat synth --out DIR --snapshots N --nx 96 --ny 64 EXTRA...`: small synthetic snapshots
+/// of the default scenario for the CLI tests (asserts that synth succeeded).
+pub fn synth_small(dir: &std::path::Path, snapshots: usize, extra: &[&str]) {
+    let n = snapshots.to_string();
+    let mut args = vec![
+        "synth",
+        "--out",
+        dir.to_str().unwrap(),
+        "--snapshots",
+        n.as_str(),
+        "--nx",
+        "96",
+        "--ny",
+        "64",
+    ];
+    args.extend_from_slice(extra);
+    let run = vortcat(args);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+}

@@ -3,25 +3,7 @@
 
 use std::path::Path;
 
-use crate::harness::vortcat;
-
-fn synth(dir: &Path, snapshots: usize) {
-    let n = snapshots.to_string();
-    let run = vortcat([
-        "synth",
-        "--out",
-        dir.to_str().unwrap(),
-        "--snapshots",
-        &n,
-        "--nx",
-        "96",
-        "--ny",
-        "64",
-        "--format",
-        "hdf5",
-    ]);
-    assert_eq!(run.code, 0, "{}", run.stderr);
-}
+use crate::harness::{synth_small, vortcat};
 
 fn shard(data: &Path, out: &Path, k: usize, n: usize, extra: &[&str]) {
     let spec = format!("{k}/{n}");
@@ -57,7 +39,7 @@ fn copy_dir(from: &Path, to: &Path) {
 fn merged_shards_equal_a_single_survey() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 7); // one HDF5 stack: shards split it by time index
+    synth_small(&data, 7, &["--format", "hdf5"]); // one HDF5 stack: shards split it by time index
     let single = dir.path().join("single");
     let run = vortcat([
         "survey",
@@ -91,7 +73,7 @@ fn merged_shards_equal_a_single_survey() {
 fn merge_refuses_incomplete_or_inconsistent_shards() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 5);
+    synth_small(&data, 5, &["--format", "hdf5"]);
     let sharded = dir.path().join("sharded");
     for k in 0..3 {
         shard(&data, &sharded, k, 3, &[]);

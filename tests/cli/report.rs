@@ -4,23 +4,7 @@
 
 use std::path::Path;
 
-use crate::harness::{assert_one_line_error, vortcat};
-
-fn synth(dir: &Path, snapshots: usize) {
-    let n = snapshots.to_string();
-    let run = vortcat([
-        "synth",
-        "--out",
-        dir.to_str().unwrap(),
-        "--snapshots",
-        n.as_str(),
-        "--nx",
-        "96",
-        "--ny",
-        "64",
-    ]);
-    assert_eq!(run.code, 0, "{}", run.stderr);
-}
+use crate::harness::{assert_one_line_error, synth_small, vortcat};
 
 fn survey(input: &Path, out: &Path, extra: &[&str]) {
     let mut args = vec![
@@ -68,7 +52,7 @@ fn close(a: f64, b: f64, rel: f64) -> bool {
 fn report_numbers_match_the_catalog() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 5);
+    synth_small(&data, 5, &[]);
     let out = dir.path().join("out");
     survey(&data, &out, &["--report"]);
     let index = out.join("report/index.html");
@@ -193,7 +177,7 @@ fn report_numbers_match_the_catalog() {
 fn hostile_file_name_produces_no_script() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 1);
+    synth_small(&data, 1, &[]);
     let snap = std::fs::read_dir(&data)
         .unwrap()
         .map(|e| e.unwrap().path())
@@ -235,7 +219,7 @@ fn hostile_file_name_produces_no_script() {
 fn rank_orders_by_magnitude_and_filters() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 4);
+    synth_small(&data, 4, &[]);
     let out = dir.path().join("out");
     survey(&data, &out, &[]);
     let run = vortcat([
@@ -318,7 +302,7 @@ fn report_of_100000_vortices_stays_small() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path();
     let data = dir.path().join("data");
-    synth(&data, 1);
+    synth_small(&data, 1, &[]);
     let real = dir.path().join("real");
     survey(&data, &real, &[]);
     for f in ["config.toml", "units.csv"] {

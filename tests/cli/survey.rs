@@ -5,25 +5,7 @@ use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
-use crate::harness::vortcat;
-
-fn synth(dir: &Path, snapshots: usize, extra: &[&str]) {
-    let n = snapshots.to_string();
-    let mut args = vec![
-        "synth",
-        "--out",
-        dir.to_str().unwrap(),
-        "--snapshots",
-        n.as_str(),
-        "--nx",
-        "96",
-        "--ny",
-        "64",
-    ];
-    args.extend_from_slice(extra);
-    let run = vortcat(args);
-    assert_eq!(run.code, 0, "{}", run.stderr);
-}
+use crate::harness::{synth_small, vortcat};
 
 fn survey(inputs: &[&Path], out: &Path, extra: &[&str]) -> crate::harness::Run {
     let mut args: Vec<String> = vec!["survey".into()];
@@ -42,7 +24,7 @@ fn survey(inputs: &[&Path], out: &Path, extra: &[&str]) -> crate::harness::Run {
 fn outputs_and_manifest() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 3, &[]);
+    synth_small(&data, 3, &[]);
     let out = dir.path().join("out");
     let run = survey(&[&data], &out, &["--viscosity", "1e-6"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
@@ -106,7 +88,7 @@ fn outputs_and_manifest() {
 fn thread_count_does_not_change_the_catalog() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 6, &["--scenario", "population", "--vortices", "8"]);
+    synth_small(&data, 6, &["--scenario", "population", "--vortices", "8"]);
     let (a, b) = (dir.path().join("a"), dir.path().join("b"));
     assert_eq!(survey(&[&data], &a, &["--threads", "1"]).code, 0);
     assert_eq!(survey(&[&data], &b, &["--threads", "2"]).code, 0);
@@ -151,7 +133,7 @@ fn start_and_wait_for_parts(data: &Path, out: &Path, parts: usize) -> std::proce
 fn kill_9_then_resume_gives_the_same_catalog() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 40, &["--format", "hdf5"]);
+    synth_small(&data, 40, &["--format", "hdf5"]);
     let reference = dir.path().join("reference");
     assert_eq!(survey(&[&data], &reference, &["--threads", "1"]).code, 0);
 
@@ -180,7 +162,7 @@ fn kill_9_then_resume_gives_the_same_catalog() {
 fn a_corrupt_file_is_recorded_and_the_batch_goes_on() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 3, &[]);
+    synth_small(&data, 3, &[]);
     std::fs::write(
         data.join("snap_0009.npz"),
         b"PK\x03\x04 definitely not a zip",
@@ -210,7 +192,7 @@ fn a_corrupt_file_is_recorded_and_the_batch_goes_on() {
 fn awkward_file_names() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 1, &[]);
+    synth_small(&data, 1, &[]);
     let odd = dir.path().join("run \"7\" – Δt, café.npz");
     std::fs::rename(data.join("snap_0000.npz"), &odd).unwrap();
     let out = dir.path().join("out put");
@@ -229,7 +211,7 @@ fn awkward_file_names() {
 fn changed_config_is_refused_without_force() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 1, &[]);
+    synth_small(&data, 1, &[]);
     let out = dir.path().join("out");
     assert_eq!(survey(&[&data], &out, &[]).code, 0);
     let run = survey(&[&data], &out, &["--criterion", "q"]);
@@ -295,7 +277,7 @@ fn no_inputs_and_bad_usage() {
 fn ctrl_c_stops_cleanly_and_leaves_a_resumable_state() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");
-    synth(&data, 40, &["--format", "hdf5"]);
+    synth_small(&data, 40, &["--format", "hdf5"]);
     let reference = dir.path().join("reference");
     assert_eq!(survey(&[&data], &reference, &["--threads", "2"]).code, 0);
     let out = dir.path().join("interrupted");
