@@ -340,13 +340,7 @@ pub(crate) fn fit_model_warm(
         circulation: CirculationGuess::Value(previous.circulation()),
         core_radius: Some(previous.core_radius()),
     };
-    let start = previous.parameters.centre;
-    match model {
-        Model::LambOseen(m) => fit_at(m, window, &warm, start, settings),
-        Model::Burgers(m) => fit_at(m, window, &warm, start, settings),
-        Model::Rankine(m) => fit_at(m, window, &warm, start, settings),
-        Model::Vatistas(m) => fit_at(m, window, &warm, start, settings),
-    }
+    fit_model_at(model, window, &warm, previous.parameters.centre, settings)
 }
 
 /// Fit a run-time chosen [`Model`].
@@ -356,11 +350,22 @@ pub fn fit_model(
     guess: &InitialGuess,
     settings: &FitSettings,
 ) -> Result<FitResult, FitError> {
+    fit_model_at(model, window, guess, guess.centre, settings)
+}
+
+/// [`fit_at`] for a run-time chosen [`Model`].
+fn fit_model_at(
+    model: &Model,
+    window: &Window,
+    guess: &InitialGuess,
+    start_centre: [f64; 2],
+    settings: &FitSettings,
+) -> Result<FitResult, FitError> {
     match model {
-        Model::LambOseen(m) => fit(m, window, guess, settings),
-        Model::Burgers(m) => fit(m, window, guess, settings),
-        Model::Rankine(m) => fit(m, window, guess, settings),
-        Model::Vatistas(m) => fit(m, window, guess, settings),
+        Model::LambOseen(m) => fit_at(m, window, guess, start_centre, settings),
+        Model::Burgers(m) => fit_at(m, window, guess, start_centre, settings),
+        Model::Rankine(m) => fit_at(m, window, guess, start_centre, settings),
+        Model::Vatistas(m) => fit_at(m, window, guess, start_centre, settings),
     }
 }
 

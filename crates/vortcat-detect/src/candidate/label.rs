@@ -51,14 +51,14 @@ const DENSE_LIMIT: usize = 1 << 24;
 /// these lookups). Beyond, the offset of every grid row's first cell, so that finding a
 /// neighbour is a search within one row (a handful of cells) instead of within the whole
 /// list, with memory of one offset per grid row.
-pub(crate) struct RowIndex<'a> {
+pub(crate) struct CellIndex<'a> {
     cells: &'a [usize],
     starts: Vec<usize>,
     nx: usize,
     dense: Option<Vec<u32>>,
 }
 
-impl<'a> RowIndex<'a> {
+impl<'a> CellIndex<'a> {
     pub fn new(cells: &'a [usize], space: &Space) -> Self {
         let nx = space.n[0].max(1);
         let points = space.n[0] * space.n[1] * space.n[2];
@@ -77,7 +77,7 @@ impl<'a> RowIndex<'a> {
         Self::by_rows(cells, space)
     }
 
-    /// The per-row index (what [`RowIndex::new`] builds for a large grid).
+    /// The per-row index (what [`CellIndex::new`] builds for a large grid).
     fn by_rows(cells: &'a [usize], space: &Space) -> Self {
         let nx = space.n[0].max(1);
         let rows = space.n[1] * space.n[2];
@@ -126,7 +126,7 @@ fn find(parent: &mut [u32], mut i: u32) -> u32 {
 /// positions into `cells`, each list ascending, components ordered by their first cell.
 pub(crate) fn components(cells: &[usize], space: &Space) -> Vec<Vec<usize>> {
     debug_assert!(cells.windows(2).all(|w| w[0] < w[1]));
-    let index = RowIndex::new(cells, space);
+    let index = CellIndex::new(cells, space);
     let mut parent: Vec<u32> = (0..cells.len() as u32).collect();
     let mut nb = Vec::with_capacity(26);
     for (pos, &flat) in cells.iter().enumerate() {
@@ -163,7 +163,7 @@ pub(crate) fn components(cells: &[usize], space: &Space) -> Vec<Vec<usize>> {
 /// space of `cells.len()` entries, all `u32::MAX` on entry and on return.
 pub(crate) fn split(
     comp: &[usize],
-    index: &RowIndex<'_>,
+    index: &CellIndex<'_>,
     strength: &[f64],
     space: &Space,
     settings: &SplitSettings,
@@ -185,7 +185,7 @@ pub(crate) fn split(
 
 fn split_marked(
     comp: &[usize],
-    index: &RowIndex<'_>,
+    index: &CellIndex<'_>,
     cells: &[usize],
     strength: &[f64],
     space: &Space,
@@ -292,15 +292,15 @@ mod tests {
     }
 
     #[test]
-    fn row_index_finds_exactly_the_listed_cells() {
+    fn cell_index_finds_exactly_the_listed_cells() {
         // Every grid point is looked up in a sparse list spanning rows and planes, including
         // empty rows and the last row: a hit exactly for listed cells, at their position; by
         // the direct table (small grid) and by the per-row search (as for a large grid).
         let space = Space { n: [4, 3, 2] };
         let cells = vec![1, 2, 3, 9, 13, 14, 23];
-        let table = RowIndex::new(&cells, &space);
+        let table = CellIndex::new(&cells, &space);
         assert!(table.dense.is_some());
-        let rows = RowIndex::by_rows(&cells, &space);
+        let rows = CellIndex::by_rows(&cells, &space);
         assert!(rows.dense.is_none());
         for index in [&table, &rows] {
             for flat in 0..24 {
@@ -339,7 +339,7 @@ mod tests {
             saddle_ratio: 0.5,
             min_basin_cells: 3,
         };
-        let index = RowIndex::new(&cells, &space);
+        let index = CellIndex::new(&cells, &space);
         let mut scratch = vec![u32::MAX; cells.len()];
         let parts = split(&comp, &index, &s, &space, &set, &mut scratch);
         assert_eq!(parts.len(), 2);

@@ -197,7 +197,7 @@ fn find_regions(
         }
     }
     let mut regions = Vec::new();
-    let index = label::RowIndex::new(&cells, space);
+    let index = label::CellIndex::new(&cells, space);
     let mut local_of = vec![
         u32::MAX;
         if settings.split().is_some() {

@@ -215,11 +215,12 @@ impl NpyHeader {
             FieldError::Corrupt(format!("'{name}' is not a valid .npy stream: {e}"))
         };
         let preamble = read_preamble(reader).map_err(|e| invalid(&e))?;
-        let (descr, fortran, shape) = match &preamble {
-            Some((text, _)) if canonical_header(text).is_some() => {
-                canonical_header(text).expect("checked")
-            }
-            _ => {
+        let fast = preamble
+            .as_ref()
+            .and_then(|(text, _)| canonical_header(text));
+        let (descr, fortran, shape) = match fast {
+            Some(header) => header,
+            None => {
                 // Anything else goes to the general parser, fed the bytes already read.
                 let consumed = preamble.map(|(_, b)| b).unwrap_or_default();
                 let mut replay = std::io::Read::chain(std::io::Cursor::new(consumed), reader);
