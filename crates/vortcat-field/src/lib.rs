@@ -55,7 +55,7 @@ pub mod spec;
 
 pub use error::FieldError;
 pub use format::{
-    open, ArrayInfo, GridOrigin, SnapshotReader, Snapshots, SourceInfo, VolumePlanes,
+    open, open_bytes, ArrayInfo, GridOrigin, SnapshotReader, Snapshots, SourceInfo, VolumePlanes,
 };
 pub use grid::{Axis, Grid, Units, DEFAULT_UNIFORM_TOLERANCE};
 pub use snapshot::{Field, PlaneField, Snapshot, SnapshotId, VolumeField};

@@ -58,6 +58,17 @@ impl CsvReader {
                 FieldError::Io(e)
             }
         })?;
+        Self::from_text(path, &text, spec)
+    }
+
+    /// Grids a file whose bytes are already in memory (`path` names it in the source info).
+    pub fn from_bytes(path: &Path, bytes: Vec<u8>, spec: &InputSpec) -> Result<Self, FieldError> {
+        let text = String::from_utf8(bytes)
+            .map_err(|_| FieldError::Corrupt("not a text file (invalid UTF-8)".into()))?;
+        Self::from_text(path, &text, spec)
+    }
+
+    fn from_text(path: &Path, text: &str, spec: &InputSpec) -> Result<Self, FieldError> {
         let mut lines = text
             .lines()
             .filter(|l| !l.trim().is_empty() && !l.trim_start().starts_with('#'));

@@ -311,6 +311,47 @@ fn open_inner(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, 
     })
 }
 
+/// Opens a single-file source whose bytes the caller has already read whole, so that a file
+/// hashed for the run's manifest is not read a second time to be parsed. `bytes` must be the
+/// whole content of `path`; `path` names the source in the info and in every error.
+///
+/// `.npy`, `.npz` and CSV files are parsed from `bytes`. HDF5 is read through the library from
+/// `path` (its file images are not used), and a folder cannot be given as bytes: for those,
+/// `bytes` is dropped and this is [`open`].
+pub fn open_bytes(
+    path: &Path,
+    bytes: Vec<u8>,
+    spec: &InputSpec,
+) -> Result<Box<dyn SnapshotReader>, FieldError> {
+    open_bytes_inner(path, bytes, spec).map_err(|e| e.in_file(path))
+}
+
+fn open_bytes_inner(
+    path: &Path,
+    bytes: Vec<u8>,
+    spec: &InputSpec,
+) -> Result<Box<dyn SnapshotReader>, FieldError> {
+    spec.validate()?;
+    let spec = &spec.for_file(path);
+    if path.is_dir() {
+        return open_inner(path, spec);
+    }
+    Ok(match detect_format(path, spec)? {
+        FormatHint::Npy => Box::new(assemble::ArrayReader::new(
+            path,
+            npy::NpyStore::from_bytes(path, bytes)?,
+            spec,
+        )?),
+        FormatHint::Npz => Box::new(assemble::ArrayReader::new(
+            path,
+            npz::NpzStore::from_bytes(bytes)?,
+            spec,
+        )?),
+        FormatHint::Hdf5 => return open_inner(path, spec),
+        FormatHint::Csv => Box::new(csv::CsvReader::from_bytes(path, bytes, spec)?),
+    })
+}
+
 /// Iterates over the snapshots of a reader in order.
 pub struct Snapshots<'a> {
     reader: &'a mut dyn SnapshotReader,

@@ -280,9 +280,36 @@ impl NpyHeader {
     }
 }
 
+/// Where an array's bytes come from: the file (positioned reads, so a stack is read one
+/// snapshot at a time), or a copy of the whole file already in memory.
+#[derive(Debug)]
+enum Backing {
+    File(File),
+    Memory(Vec<u8>),
+}
+
+impl Backing {
+    fn read_exact_at(&self, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
+        match self {
+            Backing::File(f) => f.read_exact_at(buf, offset),
+            Backing::Memory(bytes) => {
+                let end = usize::try_from(offset)
+                    .ok()
+                    .and_then(|start| start.checked_add(buf.len()).map(|end| (start, end)))
+                    .filter(|&(_, end)| end <= bytes.len());
+                let Some((start, end)) = end else {
+                    return Err(std::io::Error::from(std::io::ErrorKind::UnexpectedEof));
+                };
+                buf.copy_from_slice(&bytes[start..end]);
+                Ok(())
+            }
+        }
+    }
+}
+
 #[derive(Debug)]
 struct NpyArray {
-    file: File,
+    file: Backing,
     header: NpyHeader,
     data_offset: u64,
 }
@@ -294,6 +321,25 @@ impl NpyArray {
         let mut reader = BufReader::new(&file);
         let header = NpyHeader::read(name, &mut reader).map_err(|e| e.in_file(path))?;
         let data_offset = reader.stream_position()?;
+        Self::checked(name, path, Backing::File(file), header, data_offset, len)
+    }
+
+    fn from_bytes(name: &str, path: &Path, bytes: Vec<u8>) -> Result<Self, FieldError> {
+        let mut reader = std::io::Cursor::new(bytes.as_slice());
+        let header = NpyHeader::read(name, &mut reader).map_err(|e| e.in_file(path))?;
+        let data_offset = reader.position();
+        let len = bytes.len() as u64;
+        Self::checked(name, path, Backing::Memory(bytes), header, data_offset, len)
+    }
+
+    fn checked(
+        name: &str,
+        path: &Path,
+        file: Backing,
+        header: NpyHeader,
+        data_offset: u64,
+        len: u64,
+    ) -> Result<Self, FieldError> {
         let available = len.saturating_sub(data_offset);
         if header.data_bytes > available {
             return Err(FieldError::Corrupt(format!(
@@ -310,6 +356,14 @@ impl NpyArray {
     }
 
     fn read_bytes(&self, offset: u64, len: u64) -> Result<Vec<f64>, FieldError> {
+        if let Backing::Memory(bytes) = &self.file {
+            // Decode straight from the copy in memory, without a second buffer.
+            let start = (self.data_offset + offset) as usize;
+            let slice = bytes
+                .get(start..start + len as usize)
+                .ok_or_else(|| std::io::Error::from(std::io::ErrorKind::UnexpectedEof))?;
+            return Ok(self.header.dtype.decode(slice));
+        }
         let mut buf = vec![0u8; len as usize];
         self.file
             .read_exact_at(&mut buf, self.data_offset + offset)?;
@@ -372,6 +426,26 @@ impl NpyStore {
             files,
             cache: HashMap::new(),
             single,
+        })
+    }
+
+    /// A single `.npy` file whose bytes are already in memory (the whole file).
+    pub fn from_bytes(path: &Path, bytes: Vec<u8>) -> Result<Self, FieldError> {
+        let name = path
+            .file_stem()
+            .and_then(|s| s.to_str())
+            .unwrap_or("array")
+            .to_string();
+        let array = NpyArray::from_bytes(&name, path, bytes)?;
+        Ok(Self {
+            arrays: vec![ArrayInfo {
+                name: name.clone(),
+                shape: array.header.shape.clone(),
+                dtype: array.header.dtype.display(),
+            }],
+            files: HashMap::from([(name, array)]),
+            cache: HashMap::new(),
+            single: true,
         })
     }
 

@@ -8,8 +8,9 @@
 
 use std::collections::HashMap;
 use std::fs::File;
-use std::io::{BufReader, Read};
+use std::io::{BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
+use std::sync::Arc;
 
 use ndarray::{ArrayD, Axis as NdAxis};
 
@@ -17,9 +18,47 @@ use super::npy::NpyHeader;
 use super::{ArrayInfo, ArrayStore};
 use crate::error::FieldError;
 
+/// Where the archive's bytes come from: the file, or a copy already in memory (read once to
+/// hash and parse, see [`super::open_bytes`]).
+enum Backing {
+    File(BufReader<File>),
+    Memory(Cursor<Shared>),
+}
+
+/// The archive's bytes, shared between the zip reader and the store's zero-copy decoding of
+/// stored (uncompressed) members.
+#[derive(Clone)]
+struct Shared(Arc<Vec<u8>>);
+
+impl AsRef<[u8]> for Shared {
+    fn as_ref(&self) -> &[u8] {
+        self.0.as_slice()
+    }
+}
+
+impl Read for Backing {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        match self {
+            Backing::File(f) => f.read(buf),
+            Backing::Memory(m) => m.read(buf),
+        }
+    }
+}
+
+impl Seek for Backing {
+    fn seek(&mut self, pos: SeekFrom) -> std::io::Result<u64> {
+        match self {
+            Backing::File(f) => f.seek(pos),
+            Backing::Memory(m) => m.seek(pos),
+        }
+    }
+}
+
 /// The `.npz` store.
 pub struct NpzStore {
-    archive: zip::ZipArchive<BufReader<File>>,
+    archive: zip::ZipArchive<Backing>,
+    /// The whole archive, when it was given as bytes.
+    memory: Option<Shared>,
     arrays: Vec<ArrayInfo>,
     members: HashMap<String, (String, NpyHeader)>,
     cache: HashMap<String, ArrayD<f64>>,
@@ -33,7 +72,17 @@ impl NpzStore {
     /// Opens the archive and reads every member's header.
     pub fn open(path: &Path) -> Result<Self, FieldError> {
         let file = File::open(path)?;
-        let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(zip_error)?;
+        Self::with_backing(Backing::File(BufReader::new(file)), None)
+    }
+
+    /// Reads an archive whose bytes are already in memory (the whole file).
+    pub fn from_bytes(bytes: Vec<u8>) -> Result<Self, FieldError> {
+        let shared = Shared(Arc::new(bytes));
+        Self::with_backing(Backing::Memory(Cursor::new(shared.clone())), Some(shared))
+    }
+
+    fn with_backing(backing: Backing, memory: Option<Shared>) -> Result<Self, FieldError> {
+        let mut archive = zip::ZipArchive::new(backing).map_err(zip_error)?;
         let mut arrays = Vec::new();
         let mut members = HashMap::new();
         let mut names: Vec<String> = archive.file_names().map(str::to_string).collect();
@@ -59,6 +108,7 @@ impl NpzStore {
         }
         Ok(Self {
             archive,
+            memory,
             arrays,
             members,
             cache: HashMap::new(),
@@ -76,6 +126,32 @@ impl NpzStore {
                     available: self.arrays.iter().map(|a| a.name.clone()).collect(),
                 })?;
         let mut entry = self.archive.by_name(&member).map_err(zip_error)?;
+        if let Some(memory) = &self.memory {
+            if entry.compression() == zip::CompressionMethod::Stored && !entry.encrypted() {
+                // A stored member of an archive in memory: decode its data in place.
+                let start = usize::try_from(entry.data_start()).unwrap_or(usize::MAX);
+                let size = usize::try_from(entry.size()).unwrap_or(usize::MAX);
+                let all = memory.as_ref();
+                let Some(mut member_bytes) =
+                    start.checked_add(size).and_then(|end| all.get(start..end))
+                else {
+                    return Err(FieldError::Corrupt(format!(
+                        "member '{name}' runs past the end of the archive"
+                    )));
+                };
+                NpyHeader::read(name, &mut member_bytes)?;
+                let data = member_bytes
+                    .get(..header.data_bytes as usize)
+                    .ok_or_else(|| {
+                        FieldError::Corrupt(format!(
+                            "member '{name}' is truncated: {} of {} bytes",
+                            member_bytes.len(),
+                            header.data_bytes
+                        ))
+                    })?;
+                return header.to_array(&header.shape, header.dtype.decode(data));
+            }
+        }
         // Skip the header again, then read exactly the data bytes the header announced.
         NpyHeader::read(name, &mut entry)?;
         let mut bytes = Vec::with_capacity(header.data_bytes as usize);

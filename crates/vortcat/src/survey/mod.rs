@@ -85,14 +85,15 @@ pub struct SurveyArgs {
     /// Print the fully resolved config, every default included, and exit.
     #[arg(long, help_heading = "Run")]
     print_config: bool,
-    /// Progress display: auto (a bar on a terminal, log lines otherwise), bar, log, none.
+    /// Progress display.
     #[arg(
         long,
         value_name = "MODE",
-        default_value = "auto",
+        value_enum,
+        default_value_t = ProgressMode::Auto,
         help_heading = "Run"
     )]
-    progress: String,
+    progress: ProgressMode,
     /// Also write the quality-control report DIR/report/index.html (defaults of `vortcat report`).
     #[arg(long, help_heading = "Output")]
     report: bool,
@@ -170,14 +171,26 @@ struct Progress {
     last_line: Mutex<Instant>,
 }
 
+/// How progress is shown on stderr.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum ProgressMode {
+    /// A bar on a terminal, plain log lines otherwise.
+    Auto,
+    /// A bar with rate and ETA.
+    Bar,
+    /// A plain line every few seconds (for log files).
+    Log,
+    /// Nothing.
+    None,
+}
+
 impl Progress {
-    fn new(mode: &str, total: usize, already: usize) -> anyhow::Result<Self> {
+    fn new(mode: ProgressMode, total: usize, already: usize) -> anyhow::Result<Self> {
         let terminal = std::io::stderr().is_terminal();
         let (bar, log) = match (mode, terminal) {
-            ("auto", true) | ("bar", _) => (true, false),
-            ("auto", false) | ("log", _) => (false, true),
-            ("none", _) => (false, false),
-            (other, _) => bail!("--progress: unknown mode '{other}' (auto, bar, log, none)"),
+            (ProgressMode::Auto, true) | (ProgressMode::Bar, _) => (true, false),
+            (ProgressMode::Auto, false) | (ProgressMode::Log, _) => (false, true),
+            (ProgressMode::None, _) => (false, false),
         };
         let bar = bar.then(|| {
             let b = indicatif::ProgressBar::new(total as u64);
@@ -310,11 +323,29 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         None => all_jobs.clone(),
     };
     let mine: std::collections::BTreeSet<usize> = jobs.iter().map(|j| j.source).collect();
+    // In a fresh output folder nothing can be skipped, so a single-snapshot file need not be
+    // hashed before it is processed: its worker reads it once, hashes those bytes and parses
+    // them. Stacks (several workers may share one), HDF5 (read through the library), folders,
+    // volumes and very large files are hashed here, streaming.
+    let fresh = store.is_empty();
+    let deferred: Vec<bool> = records
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
+            fresh
+                && mine.contains(&i)
+                && r.error.is_none()
+                && r.snapshots == 1
+                && r.bytes <= READ_WHOLE_LIMIT
+                && plan.input.geometry == vortcat_field::Geometry::Plane
+                && reads_from_bytes(Path::new(&r.path), &plan.input)
+        })
+        .collect();
     pool.install(|| {
         records.par_iter_mut().enumerate().for_each(|(i, r)| {
             // Unreadable inputs are hashed too (the manifest identifies them), by shard 0 only.
-            let hash_it =
-                mine.contains(&i) || (r.error.is_some() && shard.is_none_or(|s| s.index == 0));
+            let hash_it = (mine.contains(&i) && !deferred[i])
+                || (r.error.is_some() && shard.is_none_or(|s| s.index == 0));
             if hash_it {
                 match inputs::describe(Path::new(&r.path)) {
                     Ok(d) => r.blake3 = d.blake3,
@@ -357,12 +388,14 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         });
     }
 
-    let progress = Progress::new(&args.progress, jobs.len(), skipped)?;
+    let progress = Progress::new(args.progress, jobs.len(), skipped)?;
     let failures = AtomicUsize::new(0);
     // Consecutive snapshots of one file go to one worker, so a stack is opened once per run of
     // snapshots rather than once per snapshot (an .npz member is decompressed once per run).
     let runs = group_runs(&pending, threads);
     let save_errors: Mutex<Vec<String>> = Mutex::new(Vec::new());
+    // Hashes (or read errors) of the deferred inputs, filled in by their workers.
+    let late_hashes: Mutex<Vec<(usize, Result<String, String>)>> = Mutex::new(Vec::new());
     // Results are saved by one writer thread: each save waits for an fsync (about a
     // millisecond on a virtual disk, far more on a network file system), which would otherwise
     // idle a worker per snapshot. A result still queued when the process dies is recomputed on
@@ -378,14 +411,40 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
                 }
             }
         });
+        let late_hashes = &late_hashes;
         pool.install(|| {
             runs.par_iter().for_each_with(to_writer, |to_writer, run| {
-                let record = &records[run[0].source];
-                let mut reader = match vortcat_field::open(Path::new(&record.path), &plan.input) {
+                let source = run[0].source;
+                let mut record = std::borrow::Cow::Borrowed(&records[source]);
+                let opened = if deferred[source] {
+                    let path = Path::new(&records[source].path);
+                    match std::fs::read(path) {
+                        Ok(bytes) => {
+                            let hash = blake3::hash(&bytes).to_hex().to_string();
+                            record.to_mut().blake3.clone_from(&hash);
+                            late_hashes.lock().expect("lock").push((source, Ok(hash)));
+                            vortcat_field::open_bytes(path, bytes, &plan.input)
+                                .map_err(|e| e.to_string())
+                        }
+                        Err(e) => {
+                            let message = format!("{}: read error: {e}", record.path);
+                            late_hashes
+                                .lock()
+                                .expect("lock")
+                                .push((source, Err(message.clone())));
+                            Err(message)
+                        }
+                    }
+                } else {
+                    vortcat_field::open(Path::new(&record.path), &plan.input)
+                        .map_err(|e| e.to_string())
+                };
+                let record = record.as_ref();
+                let mut reader = match opened {
                     Ok(r) => Some(r),
                     Err(e) => {
                         for job in run {
-                            let part = failed_part(record, job.index, &config_sha, e.to_string());
+                            let part = failed_part(record, job.index, &config_sha, e.clone());
                             failures.fetch_add(1, Ordering::Relaxed);
                             // The writer only stops after every sender is gone.
                             let _ = to_writer.send(part);
@@ -412,6 +471,12 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         });
     });
     progress.finish();
+    for (source, hash) in late_hashes.into_inner().expect("lock") {
+        match hash {
+            Ok(hash) => records[source].blake3 = hash,
+            Err(e) => records[source].error = Some(e),
+        }
+    }
     if let Some(e) = save_errors.lock().expect("lock").first() {
         bail!("cannot write results: {e}");
     }
@@ -720,6 +785,21 @@ fn check_previous(out: &Path, config_sha: &str, force: bool) -> anyhow::Result<(
         }
     }
     Ok(())
+}
+
+/// Largest single-snapshot file read whole into memory to be hashed and parsed at once
+/// (larger ones are hashed streaming, then read by the format's reader).
+const READ_WHOLE_LIMIT: u64 = 256 << 20;
+
+/// Whether `path` is a file that [`vortcat_field::open_bytes`] parses from memory.
+fn reads_from_bytes(path: &Path, spec: &vortcat_field::InputSpec) -> bool {
+    path.is_file()
+        && matches!(
+            vortcat_field::format::detect_format(path, spec),
+            Ok(vortcat_field::FormatHint::Npy
+                | vortcat_field::FormatHint::Npz
+                | vortcat_field::FormatHint::Csv)
+        )
 }
 
 fn failed_part(record: &InputRecord, index: usize, config_sha: &str, error: String) -> Part {

@@ -98,6 +98,16 @@ impl Store {
         format!("{}.json", &hex(&h.finalize())[..24])
     }
 
+    /// Whether no part has been stored yet (a fresh output folder): then no snapshot can be
+    /// skipped, and inputs need not be hashed before they are processed.
+    pub fn is_empty(&self) -> bool {
+        fs::read_dir(&self.dir).map_or(true, |entries| {
+            !entries
+                .filter_map(Result::ok)
+                .any(|e| e.path().extension().is_some_and(|x| x == "json"))
+        })
+    }
+
     /// A finished part with the same input and config, if there is one.
     pub fn done(
         &self,
@@ -180,7 +190,9 @@ mod tests {
             tubes: vec![],
             timing: Timing::default(),
         };
+        assert!(store.is_empty());
         store.save(&part).unwrap();
+        assert!(!store.is_empty());
         assert!(store.done("a.h5", "abc", 2, "cfg1").is_some());
         assert!(store.done("a.h5", "abc", 2, "cfg2").is_none());
         assert!(store.done("a.h5", "abd", 2, "cfg1").is_none());
