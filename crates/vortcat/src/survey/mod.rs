@@ -396,9 +396,8 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let save_errors: Mutex<Vec<String>> = Mutex::new(Vec::new());
     // Hashes (or read errors) of the deferred inputs, filled in by their workers.
     let late_hashes: Mutex<Vec<(usize, Result<String, String>)>> = Mutex::new(Vec::new());
-    // Results are saved by one writer thread: each save waits for an fsync (about a
-    // millisecond on a virtual disk, far more on a network file system), which would otherwise
-    // idle a worker per snapshot. A result still queued when the process dies is recomputed on
+    // Results are saved by one writer thread, so that a slow file system (a network share)
+    // never idles a worker. A result still queued when the process dies is recomputed on
     // resume, like one in progress.
     let (to_writer, from_workers) = std::sync::mpsc::channel::<Part>();
     std::thread::scope(|scope| {
