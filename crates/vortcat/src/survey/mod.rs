@@ -178,7 +178,7 @@ pub enum ProgressMode {
     Auto,
     /// A bar with rate and ETA.
     Bar,
-    /// A plain line every few seconds (for log files).
+    /// A plain line every 30 s and at the end (for log files).
     Log,
     /// Nothing.
     None,
