@@ -2,6 +2,7 @@
 //! and vortices, resumable after any interruption, and reproducible: the catalog bytes do not
 //! depend on the thread count, the completion order or on interruptions.
 
+use std::collections::HashMap;
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -398,17 +399,23 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let late_hashes: Mutex<Vec<(usize, Result<String, String>)>> = Mutex::new(Vec::new());
     // Results are saved by one writer thread, so that a slow file system (a network share)
     // never idles a worker. A result still queued when the process dies is recomputed on
-    // resume, like one in progress.
+    // resume, like one in progress. The writer keeps what it saved, so that the catalog is
+    // assembled without reading this run's results back (only earlier runs' are loaded).
     let (to_writer, from_workers) = std::sync::mpsc::channel::<Part>();
-    std::thread::scope(|scope| {
+    let mut computed: HashMap<(String, usize), Part> = std::thread::scope(|scope| {
         let store = &store;
         let save_errors = &save_errors;
-        scope.spawn(move || {
+        let writer = scope.spawn(move || {
+            let mut saved = HashMap::new();
             for part in from_workers {
-                if let Err(e) = store.save(&part) {
-                    save_errors.lock().expect("lock").push(crate::one_line(&e));
+                match store.save(&part) {
+                    Ok(()) => {
+                        saved.insert((part.file.clone(), part.index), part);
+                    }
+                    Err(e) => save_errors.lock().expect("lock").push(crate::one_line(&e)),
                 }
             }
+            saved
         });
         let late_hashes = &late_hashes;
         pool.install(|| {
@@ -468,6 +475,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
                 }
             });
         });
+        writer.join().expect("the writer thread does not panic")
     });
     progress.finish();
     for (source, hash) in late_hashes.into_inner().expect("lock") {
@@ -489,13 +497,20 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let mut stations = Vec::new();
     let mut tubes = Vec::new();
     let mut statuses = Vec::new();
-    // Parts are read and parsed in parallel; collect keeps the job order.
+    // This run's parts are at hand; earlier runs' are read and parsed in parallel. Either way
+    // the bytes of the catalog are the same (floats survive the JSON round trip exactly), and
+    // collect keeps the job order.
+    let mut at_hand: Vec<Option<Part>> = jobs
+        .iter()
+        .map(|job| computed.remove(&(records[job.source].path.clone(), job.index)))
+        .collect();
     let parts: Vec<Part> = pool.install(|| {
         jobs.par_iter()
-            .map(|job| {
+            .zip(at_hand.par_iter_mut())
+            .map(|(job, part)| {
                 let r = &records[job.source];
-                store
-                    .load(&r.path, &r.blake3, job.index)
+                part.take()
+                    .or_else(|| store.load(&r.path, &r.blake3, job.index))
                     .unwrap_or_else(|| {
                         failed_part(r, job.index, &config_sha, "no result was written".into())
                     })
@@ -545,7 +560,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         snapshot_set,
         reports_inputs,
     };
-    write_outputs(&out, &assembled, &meta)?;
+    pool.install(|| write_outputs(&out, &assembled, &meta))?;
     let Assembled {
         rows,
         tubes,
