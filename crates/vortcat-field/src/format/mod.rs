@@ -273,42 +273,7 @@ pub fn detect_format(path: &Path, spec: &InputSpec) -> Result<FormatHint, FieldE
 
 /// Opens a source. Every error names the file.
 pub fn open(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, FieldError> {
-    open_inner(path, spec).map_err(|e| e.in_file(path))
-}
-
-fn open_inner(path: &Path, spec: &InputSpec) -> Result<Box<dyn SnapshotReader>, FieldError> {
-    spec.validate()?;
-    let spec = &spec.for_file(path);
-    let format = detect_format(path, spec)?;
-    if path.is_dir() && format != FormatHint::Npy {
-        return Err(FieldError::Unusable(
-            "is a directory, expected a file".to_string(),
-        ));
-    }
-    if !path.exists() {
-        return Err(FieldError::Io(std::io::Error::new(
-            std::io::ErrorKind::NotFound,
-            "no such file or directory",
-        )));
-    }
-    Ok(match format {
-        FormatHint::Npy => Box::new(assemble::ArrayReader::new(
-            path,
-            npy::NpyStore::open(path, spec)?,
-            spec,
-        )?),
-        FormatHint::Npz => Box::new(assemble::ArrayReader::new(
-            path,
-            npz::NpzStore::open(path)?,
-            spec,
-        )?),
-        FormatHint::Hdf5 => Box::new(assemble::ArrayReader::new(
-            path,
-            hdf5::Hdf5Store::open(path, spec)?,
-            spec,
-        )?),
-        FormatHint::Csv => Box::new(csv::CsvReader::open(path, spec)?),
-    })
+    open_inner(path, None, spec).map_err(|e| e.in_file(path))
 }
 
 /// Opens a single-file source whose bytes the caller has already read whole, so that a file
@@ -323,32 +288,54 @@ pub fn open_bytes(
     bytes: Vec<u8>,
     spec: &InputSpec,
 ) -> Result<Box<dyn SnapshotReader>, FieldError> {
-    open_bytes_inner(path, bytes, spec).map_err(|e| e.in_file(path))
+    open_inner(path, Some(bytes), spec).map_err(|e| e.in_file(path))
 }
 
-fn open_bytes_inner(
+/// [`open`] (`bytes` = `None`) and [`open_bytes`].
+fn open_inner(
     path: &Path,
-    bytes: Vec<u8>,
+    bytes: Option<Vec<u8>>,
     spec: &InputSpec,
 ) -> Result<Box<dyn SnapshotReader>, FieldError> {
     spec.validate()?;
     let spec = &spec.for_file(path);
-    if path.is_dir() {
-        return open_inner(path, spec);
+    let format = detect_format(path, spec)?;
+    if path.is_dir() && format != FormatHint::Npy {
+        return Err(FieldError::Unusable(
+            "is a directory, expected a file".to_string(),
+        ));
     }
-    Ok(match detect_format(path, spec)? {
-        FormatHint::Npy => Box::new(assemble::ArrayReader::new(
+    let bytes = bytes.filter(|_| !path.is_dir());
+    if bytes.is_none() && !path.exists() {
+        return Err(FieldError::Io(std::io::Error::new(
+            std::io::ErrorKind::NotFound,
+            "no such file or directory",
+        )));
+    }
+    Ok(match format {
+        FormatHint::Npy => {
+            let store = match bytes {
+                Some(bytes) => npy::NpyStore::from_bytes(path, bytes)?,
+                None => npy::NpyStore::open(path, spec)?,
+            };
+            Box::new(assemble::ArrayReader::new(path, store, spec)?)
+        }
+        FormatHint::Npz => {
+            let store = match bytes {
+                Some(bytes) => npz::NpzStore::from_bytes(bytes)?,
+                None => npz::NpzStore::open(path)?,
+            };
+            Box::new(assemble::ArrayReader::new(path, store, spec)?)
+        }
+        FormatHint::Hdf5 => Box::new(assemble::ArrayReader::new(
             path,
-            npy::NpyStore::from_bytes(path, bytes)?,
+            hdf5::Hdf5Store::open(path, spec)?,
             spec,
         )?),
-        FormatHint::Npz => Box::new(assemble::ArrayReader::new(
-            path,
-            npz::NpzStore::from_bytes(bytes)?,
-            spec,
-        )?),
-        FormatHint::Hdf5 => return open_inner(path, spec),
-        FormatHint::Csv => Box::new(csv::CsvReader::from_bytes(path, bytes, spec)?),
+        FormatHint::Csv => Box::new(match bytes {
+            Some(bytes) => csv::CsvReader::from_bytes(path, bytes, spec)?,
+            None => csv::CsvReader::open(path, spec)?,
+        }),
     })
 }
 

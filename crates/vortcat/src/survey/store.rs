@@ -162,6 +162,24 @@ impl Store {
 mod tests {
     use super::*;
 
+    /// A finished part without rows.
+    fn done_part(file: &str, source_blake3: &str, index: usize, config_sha256: &str) -> Part {
+        Part {
+            snapshot: format!("{file}#{index}"),
+            file: file.into(),
+            index,
+            source_blake3: source_blake3.into(),
+            config_sha256: config_sha256.into(),
+            status: "done".into(),
+            error: None,
+            candidates: 0,
+            rows: vec![],
+            stations: vec![],
+            tubes: vec![],
+            timing: Timing::default(),
+        }
+    }
+
     #[test]
     fn atomic_write_replaces_and_leaves_no_temporary() {
         let dir = tempfile::tempdir().unwrap();
@@ -178,21 +196,7 @@ mod tests {
         // zeros where the data should be. None may count as done.
         let dir = tempfile::tempdir().unwrap();
         let store = Store::open(dir.path()).unwrap();
-        let part = Part {
-            snapshot: "a.npz#0".into(),
-            file: "a.npz".into(),
-            index: 0,
-            source_blake3: "abc".into(),
-            config_sha256: "cfg".into(),
-            status: "done".into(),
-            error: None,
-            candidates: 0,
-            rows: vec![],
-            stations: vec![],
-            tubes: vec![],
-            timing: Timing::default(),
-        };
-        store.save(&part).unwrap();
+        store.save(&done_part("a.npz", "abc", 0, "cfg")).unwrap();
         assert!(store.done("a.npz", "abc", 0, "cfg").is_some());
         let path = dir.path().join("parts").join(Store::key("a.npz", "abc", 0));
         let whole = fs::read(&path).unwrap();
@@ -230,20 +234,7 @@ mod tests {
     fn parts_round_trip_and_config_changes_invalidate() {
         let dir = tempfile::tempdir().unwrap();
         let store = Store::open(dir.path()).unwrap();
-        let part = Part {
-            snapshot: "a.h5#2".into(),
-            file: "a.h5".into(),
-            index: 2,
-            source_blake3: "abc".into(),
-            config_sha256: "cfg1".into(),
-            status: "done".into(),
-            error: None,
-            candidates: 0,
-            rows: vec![],
-            stations: vec![],
-            tubes: vec![],
-            timing: Timing::default(),
-        };
+        let part = done_part("a.h5", "abc", 2, "cfg1");
         assert!(store.is_empty());
         store.save(&part).unwrap();
         assert!(!store.is_empty());
