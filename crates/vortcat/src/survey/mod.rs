@@ -422,31 +422,15 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             runs.par_iter().for_each_with(to_writer, |to_writer, run| {
                 let source = run[0].source;
                 let mut record = std::borrow::Cow::Borrowed(&records[source]);
-                let opened = if deferred[source] {
-                    let path = Path::new(&records[source].path);
-                    match std::fs::read(path) {
-                        Ok(bytes) => {
-                            let hash = blake3::hash(&bytes).to_hex().to_string();
-                            record.to_mut().blake3.clone_from(&hash);
-                            late_hashes.lock().expect("lock").push((source, Ok(hash)));
-                            vortcat_field::open_bytes(path, bytes, &plan.input)
-                                .map_err(|e| e.to_string())
-                        }
-                        Err(e) => {
-                            let message = format!("{}: read error: {e}", record.path);
-                            late_hashes
-                                .lock()
-                                .expect("lock")
-                                .push((source, Err(message.clone())));
-                            Err(message)
-                        }
+                let opened = open_source(&records[source].path, deferred[source], &plan.input);
+                if let Some(hashed) = opened.hashed {
+                    if let Ok(hash) = &hashed {
+                        record.to_mut().blake3.clone_from(hash);
                     }
-                } else {
-                    vortcat_field::open(Path::new(&record.path), &plan.input)
-                        .map_err(|e| e.to_string())
-                };
+                    late_hashes.lock().expect("lock").push((source, hashed));
+                }
                 let record = record.as_ref();
-                let mut reader = match opened {
+                let mut reader = match opened.reader {
                     Ok(r) => Some(r),
                     Err(e) => {
                         for job in run {
@@ -799,6 +783,43 @@ fn check_previous(out: &Path, config_sha: &str, force: bool) -> anyhow::Result<(
         }
     }
     Ok(())
+}
+
+/// A run's source, opened.
+struct OpenedSource {
+    /// The reader, or the error (naming the file).
+    reader: Result<Box<dyn vortcat_field::SnapshotReader>, String>,
+    /// For an input read once: its BLAKE3 (for the manifest and the parts' keys) or the read
+    /// error. `None` when the input was hashed before processing.
+    hashed: Option<Result<String, String>>,
+}
+
+/// Opens the source of a run of snapshots. An input whose hashing was deferred (`read_once`)
+/// is read whole here, once, and the reader parses the same bytes that were hashed.
+fn open_source(path: &str, read_once: bool, spec: &vortcat_field::InputSpec) -> OpenedSource {
+    let file = Path::new(path);
+    if !read_once {
+        return OpenedSource {
+            reader: vortcat_field::open(file, spec).map_err(|e| e.to_string()),
+            hashed: None,
+        };
+    }
+    match std::fs::read(file) {
+        Ok(bytes) => {
+            let hash = blake3::hash(&bytes).to_hex().to_string();
+            OpenedSource {
+                reader: vortcat_field::open_bytes(file, bytes, spec).map_err(|e| e.to_string()),
+                hashed: Some(Ok(hash)),
+            }
+        }
+        Err(e) => {
+            let message = format!("{path}: read error: {e}");
+            OpenedSource {
+                reader: Err(message.clone()),
+                hashed: Some(Err(message)),
+            }
+        }
+    }
 }
 
 /// Largest single-snapshot file read whole into memory to be hashed and parsed at once
