@@ -2,7 +2,7 @@
 //! `.npy` folders (positioned reads) and HDF5 stacks (hyperslabs), row- and column-major.
 
 use ndarray::{s, Array3, Array4};
-use vortcat_field::{open, Field, Geometry, InputSpec, Layout};
+use vortcat_field::{open, open_bytes, Field, Geometry, InputSpec, Layout, SnapshotReader};
 
 fn value(c: usize, t: usize, z: usize, y: usize, x: usize) -> f32 {
     // Distinct, exactly representable values: every element tells where it came from.
@@ -18,7 +18,10 @@ fn spec() -> InputSpec {
 
 /// Whole-snapshot read against plane reads over several z-ranges: bit-identical values.
 fn compare(path: &std::path::Path, spec: &InputSpec, index: usize) {
-    let mut reader = open(path, spec).unwrap();
+    compare_reader(open(path, spec).unwrap(), index);
+}
+
+fn compare_reader(mut reader: Box<dyn SnapshotReader>, index: usize) {
     let Field::Volume(whole) = reader.read(index).unwrap().field else {
         panic!("not a volume")
     };
@@ -37,6 +40,22 @@ fn compare(path: &std::path::Path, spec: &InputSpec, index: usize) {
     }
     assert!(reader.read_volume_planes(index, 0..nz + 1).is_err());
     assert!(reader.read_volume_planes(index, 2..2).is_err());
+}
+
+#[test]
+fn single_npy_planes_match_the_whole_volume_from_the_file_and_from_bytes() {
+    // One array (component, z, y, x): positioned reads from the file, and slices of the copy
+    // in memory when the bytes were read whole (open_bytes).
+    let dir = tempfile::tempdir().unwrap();
+    let (nz, ny, nx) = (5, 4, 3);
+    let a = Array4::from_shape_fn((3, nz, ny, nx), |(c, z, y, x)| value(c, 0, z, y, x));
+    let path = dir.path().join("velocity.npy");
+    ndarray_npy::write_npy(&path, &a).unwrap();
+    compare(&path, &spec(), 0);
+    compare_reader(
+        open_bytes(&path, std::fs::read(&path).unwrap(), &spec()).unwrap(),
+        0,
+    );
 }
 
 #[test]

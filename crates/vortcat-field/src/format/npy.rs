@@ -289,18 +289,27 @@ enum Backing {
 }
 
 impl Backing {
+    /// `len` bytes at `offset` of a copy in memory (`None` for a file); an error past the end.
+    fn in_memory(&self, offset: u64, len: usize) -> Option<std::io::Result<&[u8]>> {
+        let Backing::Memory(bytes) = self else {
+            return None;
+        };
+        let range = usize::try_from(offset)
+            .ok()
+            .and_then(|start| Some(start..start.checked_add(len)?));
+        Some(
+            range
+                .and_then(|r| bytes.get(r))
+                .ok_or_else(|| std::io::Error::from(std::io::ErrorKind::UnexpectedEof)),
+        )
+    }
+
     fn read_exact_at(&self, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
         match self {
             Backing::File(f) => f.read_exact_at(buf, offset),
-            Backing::Memory(bytes) => {
-                let end = usize::try_from(offset)
-                    .ok()
-                    .and_then(|start| start.checked_add(buf.len()).map(|end| (start, end)))
-                    .filter(|&(_, end)| end <= bytes.len());
-                let Some((start, end)) = end else {
-                    return Err(std::io::Error::from(std::io::ErrorKind::UnexpectedEof));
-                };
-                buf.copy_from_slice(&bytes[start..end]);
+            Backing::Memory(_) => {
+                let bytes = self.in_memory(offset, buf.len()).expect("in memory")?;
+                buf.copy_from_slice(bytes);
                 Ok(())
             }
         }
@@ -356,13 +365,9 @@ impl NpyArray {
     }
 
     fn read_bytes(&self, offset: u64, len: u64) -> Result<Vec<f64>, FieldError> {
-        if let Backing::Memory(bytes) = &self.file {
+        if let Some(bytes) = self.file.in_memory(self.data_offset + offset, len as usize) {
             // Decode straight from the copy in memory, without a second buffer.
-            let start = (self.data_offset + offset) as usize;
-            let slice = bytes
-                .get(start..start + len as usize)
-                .ok_or_else(|| std::io::Error::from(std::io::ErrorKind::UnexpectedEof))?;
-            return Ok(self.header.dtype.decode(slice));
+            return Ok(self.header.dtype.decode(bytes?));
         }
         let mut buf = vec![0u8; len as usize];
         self.file
