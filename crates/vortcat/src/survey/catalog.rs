@@ -81,36 +81,27 @@ pub const COLUMNS: &[(&str, &str, &str)] = &[
 
 /// Writes `DIR/STEM.csv` (header from `columns`, written even when there are no rows) and the
 /// same rows as JSON lines in `DIR/STEM.jsonl`. Used for the plane catalog and the 3D tables.
-pub fn write_table<T: Serialize + Sync>(
+pub fn write_table<T: Serialize>(
     dir: &Path,
     stem: &str,
     columns: &[(&str, &str, &str)],
     rows: &[T],
 ) -> anyhow::Result<()> {
-    // The two serialisations are independent: made side by side (30,000 rows take a tenth
-    // of a second each), then written in a fixed order.
-    let (csv_bytes, json_lines) = rayon::join(
-        || -> anyhow::Result<Vec<u8>> {
-            let mut w = csv::WriterBuilder::new()
-                .has_headers(false)
-                .from_writer(Vec::new());
-            w.write_record(columns.iter().map(|c| c.0))?;
-            for r in rows {
-                w.serialize(r)?;
-            }
-            w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
-        },
-        || -> anyhow::Result<Vec<u8>> {
-            let mut lines = Vec::new();
-            for r in rows {
-                serde_json::to_writer(&mut lines, r)?;
-                lines.write_all(b"\n")?;
-            }
-            Ok(lines)
-        },
-    );
-    crate::survey::store::write_atomic(&dir.join(format!("{stem}.csv")), &csv_bytes?)?;
-    crate::survey::store::write_atomic(&dir.join(format!("{stem}.jsonl")), &json_lines?)
+    let mut w = csv::WriterBuilder::new()
+        .has_headers(false)
+        .from_writer(Vec::new());
+    w.write_record(columns.iter().map(|c| c.0))?;
+    for r in rows {
+        w.serialize(r)?;
+    }
+    let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+    crate::survey::store::write_atomic(&dir.join(format!("{stem}.csv")), &bytes)?;
+    let mut lines = Vec::new();
+    for r in rows {
+        serde_json::to_writer(&mut lines, r)?;
+        lines.write_all(b"\n")?;
+    }
+    crate::survey::store::write_atomic(&dir.join(format!("{stem}.jsonl")), &lines)
 }
 
 /// Writes a units table (`column, unit, description`) for `columns`, resolving each unit kind

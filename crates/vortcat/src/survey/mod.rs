@@ -544,7 +544,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         snapshot_set,
         reports_inputs,
     };
-    pool.install(|| write_outputs(&out, &assembled, &meta))?;
+    write_outputs(&out, &assembled, &meta)?;
     let Assembled {
         rows,
         tubes,
