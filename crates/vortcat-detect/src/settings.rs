@@ -82,35 +82,61 @@ impl Threshold {
     pub fn resolve(
         &self,
         criterion: Criterion,
-        strengths: impl Iterator<Item = f64> + Clone,
+        strengths: impl Iterator<Item = f64>,
+    ) -> Result<f64, DetectError> {
+        let values: Vec<f64> = strengths.collect();
+        self.resolve_at(criterion, values.len(), |i| values[i])
+    }
+
+    /// [`Self::resolve`] over `strength_at(0..len)`, without collecting the strengths: the
+    /// detection thresholds the criterion field of a plane in place.
+    pub(crate) fn resolve_at(
+        &self,
+        criterion: Criterion,
+        len: usize,
+        strength_at: impl Fn(usize) -> f64,
     ) -> Result<f64, DetectError> {
         let rule = match self {
             Threshold::Default => Threshold::default_for(criterion),
             t => *t,
         };
-        let finite = strengths.filter(|s| !s.is_nan());
+        let nothing = || DetectError::NothingComputable {
+            criterion: criterion.name(),
+            points: 0,
+        };
         match rule {
             Threshold::Absolute(t) => Ok(t),
             Threshold::RelativeToRms(k) => {
-                let (sum, n) = finite.fold((0.0, 0usize), |(s, n), x| {
+                // Mean square of the positive part over the computable values. Four
+                // interleaved partial sums (value i into lane i mod 4) and a NaN adds 0
+                // (`f64::max` returns the other operand): one running sum would be a chain of
+                // dependent additions, the slowest part of thresholding a plane. Fixed lane
+                // order, so the result is reproducible.
+                let (mut lanes, mut n) = ([0.0f64; 4], 0usize);
+                let full = len - len % 4;
+                let mut add = |lane: &mut f64, x: f64| {
                     let p = x.max(0.0);
-                    (s + p * p, n + 1)
-                });
-                if n == 0 {
-                    return Err(DetectError::NothingComputable {
-                        criterion: criterion.name(),
-                        points: 0,
-                    });
+                    *lane += p * p;
+                    n += usize::from(!x.is_nan());
+                };
+                for i in (0..full).step_by(4) {
+                    for (l, lane) in lanes.iter_mut().enumerate() {
+                        add(lane, strength_at(i + l));
+                    }
                 }
+                for i in full..len {
+                    add(&mut lanes[i - full], strength_at(i));
+                }
+                if n == 0 {
+                    return Err(nothing());
+                }
+                let sum = (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]);
                 Ok(k * (sum / n as f64).sqrt())
             }
             Threshold::Percentile(p) => {
-                let mut v: Vec<f64> = finite.collect();
+                let mut v: Vec<f64> = (0..len).map(strength_at).filter(|s| !s.is_nan()).collect();
                 if v.is_empty() {
-                    return Err(DetectError::NothingComputable {
-                        criterion: criterion.name(),
-                        points: 0,
-                    });
+                    return Err(nothing());
                 }
                 // Nearest-rank percentile on the sorted values.
                 let rank = ((p / 100.0) * (v.len() - 1) as f64).round() as usize;
@@ -378,5 +404,24 @@ mod tests {
         assert!(Threshold::RelativeToRms(1.0)
             .resolve(Criterion::Q, [f64::NAN].into_iter())
             .is_err());
+    }
+
+    #[test]
+    fn rms_rule_counts_every_lane_and_the_remainder() {
+        // 1..=1001 with every seventh value NaN and the negatives of 1..=5 (positive part 0):
+        // the sum of the squares of integers is exact in f64 at this size, so the four-lane sum
+        // must give Σk² over the kept k exactly (Σ_{k≤n} k² = n(n+1)(2n+1)/6).
+        let mut v: Vec<f64> = (1..=1001)
+            .map(|k| if k % 7 == 0 { f64::NAN } else { k as f64 })
+            .collect();
+        v.extend((1..=5).map(|k| -(k as f64)));
+        let all = 1001.0 * 1002.0 * 2003.0 / 6.0;
+        let sevens = 49.0 * (143.0 * 144.0 * 287.0 / 6.0);
+        let kept = 1001 - 143 + 5;
+        let t = Threshold::RelativeToRms(1.0)
+            .resolve(Criterion::Q, v.iter().copied())
+            .unwrap();
+        // Exact: every partial sum is an integer below 2⁵³, and √ is correctly rounded.
+        assert_eq!(t.to_bits(), ((all - sevens) / kept as f64).sqrt().to_bits());
     }
 }

@@ -137,7 +137,18 @@ impl Window {
             (iy_c + ry).ceil() as i64 + 1,
         );
         let (nx, ny) = (ax.len() as i64, ay.len() as i64);
-        let (u, v, valid) = (field.u(), field.v(), field.valid());
+        // Flat slices: no per-node index checks in the loop below (the field's arrays are in
+        // standard layout; `as_standard_layout` only borrows them).
+        let (u, v, valid) = (
+            field.u().as_standard_layout(),
+            field.v().as_standard_layout(),
+            field.valid().as_standard_layout(),
+        );
+        let (u, v, valid) = (
+            u.as_slice().expect("standard layout"),
+            v.as_slice().expect("standard layout"),
+            valid.as_slice().expect("standard layout"),
+        );
         let r2 = radius * radius;
         // Nodes of the circle, plus a margin for its rim.
         let expected = (std::f64::consts::PI * (rx + 1.0) * (ry + 1.0)).ceil() as usize;
@@ -146,17 +157,19 @@ impl Window {
         }
         for j in j0..=j1 {
             let yc = ay.coordinate(j as f64);
+            let dy = yc - centre[1];
+            let dy2 = dy * dy;
             for i in i0..=i1 {
                 let xc = ax.coordinate(i as f64);
-                let (dx, dy) = (xc - centre[0], yc - centre[1]);
-                if dx * dx + dy * dy > r2 {
+                let dx = xc - centre[0];
+                if dx * dx + dy2 > r2 {
                     continue;
                 }
                 if i < 0 || j < 0 || i >= nx || j >= ny {
                     w.outside += 1;
                     continue;
                 }
-                let idx = [j as usize, i as usize];
+                let idx = j as usize * nx as usize + i as usize;
                 let (uu, vv) = (u[idx], v[idx]);
                 if !valid[idx] || !uu.is_finite() || !vv.is_finite() {
                     w.invalid += 1;

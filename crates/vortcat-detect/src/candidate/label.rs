@@ -22,9 +22,26 @@ impl Space {
         (c[2] * self.n[1] + c[1]) * self.n[0] + c[0]
     }
 
-    /// Flat indices of the 8/26 neighbours of `flat` inside the grid.
+    /// Flat indices of the 8/26 neighbours of `flat` inside the grid (rows of the lower plane
+    /// first, then raster order within a plane).
     pub fn neighbours(&self, flat: usize, out: &mut Vec<usize>) {
         out.clear();
+        if self.n[2] == 1 {
+            // A plane: the same 8 cells in the same order, without the empty z loop and the
+            // three divisions of `coords` (labelling calls this for every cell twice).
+            let nx = self.n[0];
+            let (x, y) = (flat % nx, flat / nx);
+            let (x_lo, x_hi) = (x.saturating_sub(1), (x + 1).min(nx - 1));
+            let (y_lo, y_hi) = (y.saturating_sub(1), (y + 1).min(self.n[1] - 1));
+            for yy in y_lo..=y_hi {
+                for xx in x_lo..=x_hi {
+                    if xx != x || yy != y {
+                        out.push(yy * nx + xx);
+                    }
+                }
+            }
+            return;
+        }
         let c = self.coords(flat);
         for dz in -1isize..=1 {
             for dy in -1isize..=1 {
@@ -124,9 +141,9 @@ fn find(parent: &mut [u32], mut i: u32) -> u32 {
 
 /// Connected components of `cells` (sorted flat indices). Returns components as lists of
 /// positions into `cells`, each list ascending, components ordered by their first cell.
-pub(crate) fn components(cells: &[usize], space: &Space) -> Vec<Vec<usize>> {
+pub(crate) fn components(index: &CellIndex<'_>, space: &Space) -> Vec<Vec<usize>> {
+    let cells = index.cells;
     debug_assert!(cells.windows(2).all(|w| w[0] < w[1]));
-    let index = CellIndex::new(cells, space);
     let mut parent: Vec<u32> = (0..cells.len() as u32).collect();
     let mut nb = Vec::with_capacity(26);
     for (pos, &flat) in cells.iter().enumerate() {
@@ -281,7 +298,7 @@ mod tests {
         ];
         let mut sorted = cells.clone();
         sorted.sort();
-        let comps = components(&sorted, &space);
+        let comps = components(&CellIndex::new(&sorted, &space), &space);
         assert_eq!(comps.len(), 3);
         let flats: Vec<Vec<usize>> = comps
             .iter()
@@ -289,6 +306,32 @@ mod tests {
             .collect();
         assert_eq!(flats[0], vec![space.flat([3, 0, 0])]);
         assert_eq!(flats[1], vec![space.flat([0, 1, 0]), space.flat([1, 2, 0])]);
+    }
+
+    #[test]
+    fn plane_neighbours_are_the_in_plane_part_of_the_general_rule() {
+        // The plane shortcut must list exactly the cells (and order) of the 26-neighbour rule
+        // restricted to one slab: corners, edges and interior of a 5 × 4 plane.
+        let space = Space { n: [5, 4, 1] };
+        let (mut fast, mut nb) = (Vec::new(), Vec::new());
+        for flat in 0..20 {
+            space.neighbours(flat, &mut fast);
+            let c = space.coords(flat);
+            nb.clear();
+            for dy in -1isize..=1 {
+                for dx in -1isize..=1 {
+                    let (x, y) = (c[0] as isize + dx, c[1] as isize + dy);
+                    if (dx, dy) != (0, 0) && (0..5).contains(&x) && (0..4).contains(&y) {
+                        nb.push((y * 5 + x) as usize);
+                    }
+                }
+            }
+            assert_eq!(fast, nb, "cell {flat}");
+        }
+        space.neighbours(0, &mut fast);
+        assert_eq!(fast, vec![1, 5, 6], "corner");
+        space.neighbours(7, &mut fast);
+        assert_eq!(fast.len(), 8, "interior");
     }
 
     #[test]
@@ -323,9 +366,9 @@ mod tests {
             space.flat([1, 1, 1]),
             space.flat([2, 2, 2]),
         ];
-        assert_eq!(components(&cells, &space).len(), 1);
+        assert_eq!(components(&CellIndex::new(&cells, &space), &space).len(), 1);
         let cells = vec![space.flat([0, 0, 0]), space.flat([2, 2, 2])];
-        assert_eq!(components(&cells, &space).len(), 2);
+        assert_eq!(components(&CellIndex::new(&cells, &space), &space).len(), 2);
     }
 
     #[test]
