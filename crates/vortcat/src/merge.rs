@@ -310,6 +310,7 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
     let input_failures = records.iter().filter(|r| r.error.is_some()).count();
     let assembled = Assembled {
         rows,
+        lines: None,
         stations,
         tubes,
         statuses,

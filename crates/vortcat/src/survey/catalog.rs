@@ -79,6 +79,38 @@ pub const COLUMNS: &[(&str, &str, &str)] = &[
     ("flags", "", "quality flags separated by ';'"),
 ];
 
+/// Rows serialised ahead of the final write: their CSV records (no header) and their JSON
+/// lines. Records are independent, so the lines of consecutive groups of rows, concatenated,
+/// are byte for byte those of all the rows serialised at once; the survey serialises each
+/// snapshot's rows as it finishes (on the writer thread, or in parallel when loading earlier
+/// results) instead of all of them on one thread at the end.
+#[derive(Debug, Clone, Default)]
+pub struct Lines {
+    /// CSV records.
+    pub csv: Vec<u8>,
+    /// JSON lines.
+    pub jsonl: Vec<u8>,
+}
+
+impl Lines {
+    /// The lines of `rows`.
+    pub fn of<T: Serialize>(rows: &[T]) -> anyhow::Result<Self> {
+        let mut w = csv::WriterBuilder::new()
+            .has_headers(false)
+            .from_writer(Vec::new());
+        for r in rows {
+            w.serialize(r)?;
+        }
+        let csv = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+        let mut jsonl = Vec::new();
+        for r in rows {
+            serde_json::to_writer(&mut jsonl, r)?;
+            jsonl.write_all(b"\n")?;
+        }
+        Ok(Self { csv, jsonl })
+    }
+}
+
 /// Writes `DIR/STEM.csv` (header from `columns`, written even when there are no rows) and the
 /// same rows as JSON lines in `DIR/STEM.jsonl`. Used for the plane catalog and the 3D tables.
 pub fn write_table<T: Serialize>(
@@ -87,21 +119,29 @@ pub fn write_table<T: Serialize>(
     columns: &[(&str, &str, &str)],
     rows: &[T],
 ) -> anyhow::Result<()> {
+    write_lines(dir, stem, columns, &[Lines::of(rows)?])
+}
+
+/// [`write_table`] from rows already serialised, in order.
+pub fn write_lines(
+    dir: &Path,
+    stem: &str,
+    columns: &[(&str, &str, &str)],
+    groups: &[Lines],
+) -> anyhow::Result<()> {
     let mut w = csv::WriterBuilder::new()
         .has_headers(false)
         .from_writer(Vec::new());
     w.write_record(columns.iter().map(|c| c.0))?;
-    for r in rows {
-        w.serialize(r)?;
+    let mut csv = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+    csv.reserve(groups.iter().map(|g| g.csv.len()).sum());
+    let mut jsonl = Vec::with_capacity(groups.iter().map(|g| g.jsonl.len()).sum());
+    for g in groups {
+        csv.extend_from_slice(&g.csv);
+        jsonl.extend_from_slice(&g.jsonl);
     }
-    let bytes = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-    crate::survey::store::write_atomic(&dir.join(format!("{stem}.csv")), &bytes)?;
-    let mut lines = Vec::new();
-    for r in rows {
-        serde_json::to_writer(&mut lines, r)?;
-        lines.write_all(b"\n")?;
-    }
-    crate::survey::store::write_atomic(&dir.join(format!("{stem}.jsonl")), &lines)
+    crate::survey::store::write_atomic(&dir.join(format!("{stem}.csv")), &csv)?;
+    crate::survey::store::write_atomic(&dir.join(format!("{stem}.jsonl")), &jsonl)
 }
 
 /// Writes a units table (`column, unit, description`) for `columns`, resolving each unit kind
@@ -216,6 +256,49 @@ mod tests {
         assert_eq!(
             second[columns.iter().position(|c| *c == "strain_rate").unwrap()],
             ""
+        );
+    }
+
+    #[test]
+    fn lines_serialised_in_groups_concatenate_to_the_whole_table() {
+        // The survey writes the catalog from per-snapshot groups: the bytes must be those of
+        // all rows at once, also for fields CSV must quote and for empty groups.
+        #[derive(Serialize)]
+        struct Row {
+            name: String,
+            value: Option<f64>,
+        }
+        let rows: Vec<Row> = [
+            ("plain", Some(1.5)),
+            ("comma, inside", None),
+            ("quote \"q\"", Some(-2.0e-300)),
+            ("non-ASCII é", Some(0.1)),
+            ("line\nbreak", Some(3.0)),
+        ]
+        .into_iter()
+        .map(|(n, v)| Row {
+            name: n.into(),
+            value: v,
+        })
+        .collect();
+        let columns = [("name", "", ""), ("value", "", "")];
+        let (a, b) = (tempfile::tempdir().unwrap(), tempfile::tempdir().unwrap());
+        write_table(a.path(), "t", &columns, &rows).unwrap();
+        let groups = [
+            Lines::of(&rows[..2]).unwrap(),
+            Lines::of(&rows[2..2]).unwrap(),
+            Lines::of(&rows[2..]).unwrap(),
+        ];
+        write_lines(b.path(), "t", &columns, &groups).unwrap();
+        for ext in ["csv", "jsonl"] {
+            let whole = std::fs::read(a.path().join(format!("t.{ext}"))).unwrap();
+            let joined = std::fs::read(b.path().join(format!("t.{ext}"))).unwrap();
+            assert_eq!(whole, joined, "{ext}");
+        }
+        let text = std::fs::read_to_string(a.path().join("t.csv")).unwrap();
+        assert!(
+            text.starts_with("name,value\nplain,1.5\n\"comma, inside\",\n"),
+            "{text}"
         );
     }
 }

@@ -27,7 +27,7 @@ pub mod shard;
 pub mod store;
 pub mod volume;
 
-use catalog::CatalogRow;
+use catalog::{CatalogRow, Lines};
 use shard::Shard;
 use store::{Part, Store, Timing};
 
@@ -402,15 +402,16 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     // resume, like one in progress. The writer keeps what it saved, so that the catalog is
     // assembled without reading this run's results back (only earlier runs' are loaded).
     let (to_writer, from_workers) = std::sync::mpsc::channel::<Part>();
-    let mut computed: HashMap<(String, usize), Part> = std::thread::scope(|scope| {
+    let mut computed: HashMap<(String, usize), (Part, Lines)> = std::thread::scope(|scope| {
         let store = &store;
         let save_errors = &save_errors;
         let writer = scope.spawn(move || {
             let mut saved = HashMap::new();
             for part in from_workers {
-                match store.save(&part) {
-                    Ok(()) => {
-                        saved.insert((part.file.clone(), part.index), part);
+                // The catalog lines too, while the workers compute, not all at the end.
+                match store.save(&part).and_then(|()| Lines::of(&part.rows)) {
+                    Ok(lines) => {
+                        saved.insert((part.file.clone(), part.index), (part, lines));
                     }
                     Err(e) => save_errors.lock().expect("lock").push(crate::one_line(&e)),
                 }
@@ -484,24 +485,30 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     // This run's parts are at hand; earlier runs' are read and parsed in parallel. Either way
     // the bytes of the catalog are the same (floats survive the JSON round trip exactly), and
     // collect keeps the job order.
-    let mut at_hand: Vec<Option<Part>> = jobs
+    let mut at_hand: Vec<Option<(Part, Lines)>> = jobs
         .iter()
         .map(|job| computed.remove(&(records[job.source].path.clone(), job.index)))
         .collect();
-    let parts: Vec<Part> = pool.install(|| {
+    let parts: Vec<(Part, Lines)> = pool.install(|| {
         jobs.par_iter()
             .zip(at_hand.par_iter_mut())
-            .map(|(job, part)| {
-                let r = &records[job.source];
-                part.take()
-                    .or_else(|| store.load(&r.path, &r.blake3, job.index))
-                    .unwrap_or_else(|| {
-                        failed_part(r, job.index, &config_sha, "no result was written".into())
-                    })
+            .map(|(job, part)| match part.take() {
+                Some(ready) => Ok(ready),
+                None => {
+                    let r = &records[job.source];
+                    let part = store
+                        .load(&r.path, &r.blake3, job.index)
+                        .unwrap_or_else(|| {
+                            failed_part(r, job.index, &config_sha, "no result was written".into())
+                        });
+                    Lines::of(&part.rows).map(|lines| (part, lines))
+                }
             })
-            .collect()
-    });
-    for part in parts {
+            .collect::<anyhow::Result<_>>()
+    })?;
+    let mut lines = Vec::with_capacity(parts.len());
+    for (part, part_lines) in parts {
+        lines.push(part_lines);
         let flagged = part.rows.iter().filter(|r| !r.flags.is_empty()).count();
         statuses.push(SnapshotStatus {
             snapshot: part.snapshot.clone(),
@@ -527,6 +534,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let reports_inputs = shard.is_none_or(|s| s.index == 0);
     let assembled = Assembled {
         rows,
+        lines: Some(lines),
         stations,
         tubes,
         statuses,
@@ -600,6 +608,8 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
 /// Everything a survey (or a merge of shards) writes.
 pub(crate) struct Assembled {
     pub rows: Vec<CatalogRow>,
+    /// The catalog lines of `rows`, when serialised ahead (per snapshot, in the same order).
+    pub lines: Option<Vec<Lines>>,
     /// Tube stations and summaries (volume surveys), in snapshot, tube, station order.
     pub stations: Vec<volume::StationRow>,
     pub tubes: Vec<volume::TubeRow>,
@@ -646,7 +656,10 @@ fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
 /// surveys also stations.csv, tubes.csv, their JSON lines and units tables.
 pub(crate) fn write_outputs(out: &Path, a: &Assembled, meta: &RunMeta) -> anyhow::Result<()> {
     let rows = &a.rows;
-    catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?;
+    match &a.lines {
+        Some(lines) => catalog::write_lines(out, "catalog", catalog::COLUMNS, lines)?,
+        None => catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?,
+    }
     if a.config.input.geometry == vortcat_field::Geometry::Volume {
         volume::write_outputs(
             out,
