@@ -133,15 +133,14 @@ pub fn write_lines(
         .has_headers(false)
         .from_writer(Vec::new());
     w.write_record(columns.iter().map(|c| c.0))?;
-    let mut csv = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-    csv.reserve(groups.iter().map(|g| g.csv.len()).sum());
-    let mut jsonl = Vec::with_capacity(groups.iter().map(|g| g.jsonl.len()).sum());
-    for g in groups {
-        csv.extend_from_slice(&g.csv);
-        jsonl.extend_from_slice(&g.jsonl);
-    }
-    crate::survey::store::write_atomic(&dir.join(format!("{stem}.csv")), &csv)?;
-    crate::survey::store::write_atomic(&dir.join(format!("{stem}.jsonl")), &jsonl)
+    let header = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+    use crate::survey::store::write_atomic_pieces;
+    let csv = std::iter::once(header.as_slice()).chain(groups.iter().map(|g| g.csv.as_slice()));
+    write_atomic_pieces(&dir.join(format!("{stem}.csv")), csv)?;
+    write_atomic_pieces(
+        &dir.join(format!("{stem}.jsonl")),
+        groups.iter().map(|g| g.jsonl.as_slice()),
+    )
 }
 
 /// Writes a units table (`column, unit, description`) for `columns`, resolving each unit kind

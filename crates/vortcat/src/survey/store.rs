@@ -31,6 +31,35 @@ fn write_unsynced(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
     write_via_rename(path, bytes, false)
 }
 
+/// [`write_atomic`] of the concatenation of `pieces`, streamed to the file (a large table
+/// assembled from per-snapshot pieces is not copied into one buffer first).
+pub fn write_atomic_pieces<'a>(
+    path: &Path,
+    pieces: impl IntoIterator<Item = &'a [u8]>,
+) -> anyhow::Result<()> {
+    let dir = path.parent().unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+    {
+        let file =
+            fs::File::create(&tmp).with_context(|| format!("{}: cannot write", tmp.display()))?;
+        let mut w = std::io::BufWriter::with_capacity(1 << 20, file);
+        for piece in pieces {
+            w.write_all(piece)
+                .with_context(|| format!("{}: cannot write", tmp.display()))?;
+        }
+        let file = w
+            .into_inner()
+            .map_err(|e| anyhow::anyhow!("{}: cannot write: {}", tmp.display(), e.error()))?;
+        file.sync_all()?;
+    }
+    fs::rename(&tmp, path).with_context(|| format!("{}: cannot write", path.display()))?;
+    Ok(())
+}
+
 fn write_via_rename(path: &Path, bytes: &[u8], sync: bool) -> anyhow::Result<()> {
     let dir = path.parent().unwrap_or(Path::new("."));
     let name = path
