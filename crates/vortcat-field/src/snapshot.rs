@@ -92,69 +92,85 @@ fn slice_of<A, D: ndarray::Dimension>(a: &mut ndarray::Array<A, D>) -> &mut [A] 
 /// component to NaN there, so that "invalid" has one representation downstream.
 ///
 /// Errors: an infinite value (reported for the first component that has one, with its
-/// count), or no valid vector. One simple loop per component (each vectorises): reading a
-/// slab of a large volume must not cost more than the arithmetic done on it.
+/// count), or no valid vector. One fused, branch-free pass for the usual two or three
+/// components (it vectorises): reading a slab of a large volume must not cost more than the
+/// arithmetic done on it. On an error the components are left partly overwritten; both
+/// callers own them and drop them.
 fn mark_valid<T: Component>(
     names: &[&str],
     comps: &mut [&mut [T]],
     flagged: Option<&[bool]>,
     valid: &mut [bool],
 ) -> Result<(), FieldError> {
-    // One fused pass for the usual two or three components; the per-component counts of
-    // infinite values are only needed for the error message.
-    let mut infinite = 0usize;
-    match comps {
-        [a, b] => {
-            for ((ok, &x), &y) in valid.iter_mut().zip(a.iter()).zip(b.iter()) {
-                infinite += usize::from(x.is_infinite() | y.is_infinite());
-                *ok = !(x.is_nan() | y.is_nan());
-            }
-        }
-        [a, b, c] => {
-            for (((ok, &x), &y), &z) in valid.iter_mut().zip(a.iter()).zip(b.iter()).zip(c.iter()) {
-                infinite += usize::from(x.is_infinite() | y.is_infinite() | z.is_infinite());
-                *ok = !(x.is_nan() | y.is_nan() | z.is_nan());
-            }
-        }
-        _ => {
-            for c in comps.iter() {
+    let mut infinite = vec![0usize; comps.len()];
+    let invalid = match (comps, flagged) {
+        ([a, b], None) => fused::<T, 2, false>([a, b], &[], valid, &mut infinite),
+        ([a, b], Some(f)) => fused::<T, 2, true>([a, b], f, valid, &mut infinite),
+        ([a, b, c], None) => fused::<T, 3, false>([a, b, c], &[], valid, &mut infinite),
+        ([a, b, c], Some(f)) => fused::<T, 3, true>([a, b, c], f, valid, &mut infinite),
+        (comps, flagged) => {
+            for (c, count) in comps.iter().zip(infinite.iter_mut()) {
                 for (ok, &x) in valid.iter_mut().zip(c.iter()) {
-                    infinite += usize::from(x.is_infinite());
+                    *count += usize::from(x.is_infinite());
                     *ok &= !x.is_nan();
                 }
             }
-        }
-    }
-    if infinite > 0 {
-        for (name, c) in names.iter().zip(comps.iter()) {
-            let count = c.iter().filter(|x| x.is_infinite()).count();
-            if count > 0 {
-                return Err(FieldError::NonFinite {
-                    component: name.to_string(),
-                    count,
-                });
+            if let Some(f) = flagged {
+                for (ok, &bad) in valid.iter_mut().zip(f) {
+                    *ok &= !bad;
+                }
             }
+            for c in comps.iter_mut() {
+                for (x, &ok) in c.iter_mut().zip(valid.iter()) {
+                    if !ok {
+                        *x = T::NAN;
+                    }
+                }
+            }
+            valid.iter().map(|&ok| usize::from(!ok)).sum()
         }
+    };
+    if let Some((name, &count)) = names.iter().zip(&infinite).find(|(_, &n)| n > 0) {
+        return Err(FieldError::NonFinite {
+            component: name.to_string(),
+            count,
+        });
     }
-    if let Some(f) = flagged {
-        for (ok, &bad) in valid.iter_mut().zip(f) {
-            *ok &= !bad;
-        }
-    }
-    let invalid: usize = valid.iter().map(|&ok| usize::from(!ok)).sum();
     if invalid == valid.len() {
         return Err(FieldError::NoValidVectors);
     }
-    if invalid > 0 {
+    Ok(())
+}
+
+/// The pass of [`mark_valid`] for `N` components (`FLAGGED`: `flagged` holds the rejected
+/// vectors): validity, NaN written by a select where invalid, infinite values counted per
+/// component; returns the number of invalid vectors.
+fn fused<T: Component, const N: usize, const FLAGGED: bool>(
+    comps: [&mut [T]; N],
+    flagged: &[bool],
+    valid: &mut [bool],
+    infinite: &mut [usize],
+) -> usize {
+    let len = valid.len();
+    let mut comps = comps.map(|c| &mut c[..len]);
+    let flagged = if FLAGGED { &flagged[..len] } else { flagged };
+    let mut counts = [0usize; N];
+    let mut invalid = 0usize;
+    for i in 0..len {
+        let mut nan = false;
+        for (c, count) in comps.iter().zip(counts.iter_mut()) {
+            nan |= c[i].is_nan();
+            *count += usize::from(c[i].is_infinite());
+        }
+        let good = !(nan || (FLAGGED && flagged[i]));
+        valid[i] = good;
+        invalid += usize::from(!good);
         for c in comps.iter_mut() {
-            for (x, &ok) in c.iter_mut().zip(valid.iter()) {
-                if !ok {
-                    *x = T::NAN;
-                }
-            }
+            c[i] = if good { c[i] } else { T::NAN };
         }
     }
-    Ok(())
+    infinite[..N].copy_from_slice(&counts);
+    invalid
 }
 
 impl PlaneField {
@@ -464,6 +480,43 @@ mod tests {
             PlaneField::new(grid(2, 2), u, v, None, None),
             Err(FieldError::NonFinite { .. })
         ));
+    }
+
+    #[test]
+    fn invalid_vectors_are_nan_in_every_component_and_errors_name_the_component() {
+        // Three components with flags (the volume pass), then an infinite value hidden behind
+        // a NaN of another component: it must still be counted and named.
+        let nan = f64::NAN;
+        let mut comps = [
+            vec![1.0, nan, 3.0, 4.0, 5.0],
+            vec![1.0, 2.0, 3.0, nan, 5.0],
+            vec![1.0, 2.0, 3.0, 4.0, 5.0],
+        ];
+        let flagged = [false, false, true, false, false];
+        let mut valid = vec![true; 5];
+        {
+            let [a, b, c] = &mut comps;
+            mark_valid(
+                &["u", "v", "w"],
+                &mut [a.as_mut_slice(), b.as_mut_slice(), c.as_mut_slice()],
+                Some(&flagged),
+                &mut valid,
+            )
+            .unwrap();
+        }
+        assert_eq!(valid, [true, false, false, false, true]);
+        for c in &comps {
+            for (x, ok) in c.iter().zip(&valid) {
+                assert_eq!(x.is_nan(), !ok);
+            }
+        }
+        let mut u = vec![nan, 1.0, 1.0];
+        let mut v = vec![f64::INFINITY, f64::NEG_INFINITY, 0.0];
+        let err = mark_valid(&["u", "v"], &mut [&mut u, &mut v], None, &mut [true; 3]);
+        assert!(
+            matches!(&err, Err(FieldError::NonFinite { component, count: 2 }) if component == "v"),
+            "{err:?}"
+        );
     }
 
     #[test]

@@ -188,27 +188,26 @@ fn find_regions(
             e => e,
         })?;
     let (mut cells, mut strength) = (Vec::new(), Vec::new());
-    // Every strength is NaN exactly where the criterion value is. Blocks of 64 points: a
-    // branch-free pass marks the points above the threshold in a bit mask, then only those are
-    // pushed (a branch per point on "above?" mispredicts at every region boundary).
-    let mut computed = 0;
-    let mut block = 0;
-    while block < len {
-        let end = (block + 64).min(len);
-        let mut above = 0u64;
-        for flat in block..end {
-            let s = strength_of(flat);
-            computed += usize::from(!s.is_nan());
-            above |= u64::from(s > threshold) << (flat - block);
+    // The strength rule is chosen once, outside the loop, so that the scan vectorises.
+    let computed = match criterion {
+        Criterion::Vorticity | Criterion::Gamma1 | Criterion::Gamma2 => select_above(
+            len,
+            |f| value(f).abs(),
+            threshold,
+            &mut cells,
+            &mut strength,
+        ),
+        Criterion::Lambda2 => {
+            select_above(len, |f| -value(f), threshold, &mut cells, &mut strength)
         }
-        while above != 0 {
-            let flat = block + above.trailing_zeros() as usize;
-            above &= above - 1;
-            cells.push(flat);
-            strength.push(strength_of(flat));
+        Criterion::Q | Criterion::SwirlingStrength | Criterion::Delta => {
+            select_above(len, value, threshold, &mut cells, &mut strength)
         }
-        block = end;
-    }
+    };
+    debug_assert!(cells
+        .iter()
+        .zip(&strength)
+        .all(|(&f, &s)| s.to_bits() == strength_of(f).to_bits()));
     let mut regions = Vec::new();
     let index = label::CellIndex::new(&cells, space);
     let mut local_of = vec![
@@ -249,6 +248,49 @@ fn find_regions(
         threshold,
         computed,
     })
+}
+
+/// Appends the points with `strength_of(point) > threshold` and their strengths (in point
+/// order) and returns the number of computable points (strength not NaN; NaN exactly where
+/// the criterion value is). Blocks of 64 points: a branch-free pass marks the points above the
+/// threshold in a bit mask, then only those are pushed (a branch per point on "above?"
+/// mispredicts at every region boundary).
+#[inline(always)]
+fn select_above(
+    len: usize,
+    strength_of: impl Fn(usize) -> f64,
+    threshold: f64,
+    cells: &mut Vec<usize>,
+    strength: &mut Vec<f64>,
+) -> usize {
+    let mut computed = 0;
+    let mut block = 0;
+    while block < len {
+        let width = 64.min(len - block);
+        let mut above = 0u64;
+        if width == 64 {
+            // A constant trip count: compiled to vector compares and a mask extraction.
+            for l in 0..64 {
+                let s = strength_of(block + l);
+                computed += usize::from(!s.is_nan());
+                above |= u64::from(s > threshold) << l;
+            }
+        } else {
+            for l in 0..width {
+                let s = strength_of(block + l);
+                computed += usize::from(!s.is_nan());
+                above |= u64::from(s > threshold) << l;
+            }
+        }
+        while above != 0 {
+            let flat = block + above.trailing_zeros() as usize;
+            above &= above - 1;
+            cells.push(flat);
+            strength.push(strength_of(flat));
+        }
+        block += width;
+    }
+    computed
 }
 
 /// Weighted centroid (fractional index) and peak position of a region.

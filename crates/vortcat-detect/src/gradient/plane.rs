@@ -110,40 +110,62 @@ impl<'a> PlaneCtx<'a> {
         if u[k].is_nan() {
             return None;
         }
-        let dudx = self.cx.derivative(line_get(u, k, ix, self.nx, 1))?;
-        let dvdx = self.cx.derivative(line_get(v, k, ix, self.nx, 1))?;
-        let dudy = self.cy.derivative(line_get(u, k, iy, self.ny, self.nx))?;
-        let dvdy = self.cy.derivative(line_get(v, k, iy, self.ny, self.nx))?;
+        let dudx = self.along_x(u, k, ix)?;
+        let dvdx = self.along_x(v, k, ix)?;
+        let dudy = self.along_y(u, k, iy)?;
+        let dvdy = self.along_y(v, k, iy)?;
         Some(Tensor2([[dudx, dudy], [dvdx, dvdy]]))
     }
 
     /// Out-of-plane vorticity `∂v/∂x − ∂u/∂y` at one point: exactly the value (and the `None`)
-    /// that [`Self::tensor_at`] gives, at half the cost. The region sums of the sense need only
-    /// these two derivatives, and most region cells have a complete interior stencil, which is
-    /// read here without the per-sample checks. `None` agrees because the mask is shared: a
+    /// that [`Self::tensor_at`] gives, from two derivatives instead of four (the region sums of
+    /// a candidate's sense need only these). `None` agrees because the mask is shared: a
     /// masked vector is NaN in every component ([`PlaneField`]), so a derivative of `u` exists
     /// along an axis exactly when that of `v` does.
     pub(crate) fn vorticity_at(&self, iy: usize, ix: usize) -> Option<f64> {
         let (u, v) = self.slices();
-        let (nx, m) = (self.nx, self.margin);
-        let k = iy * nx + ix;
+        let k = iy * self.nx + ix;
         if u[k].is_nan() {
             return None;
         }
-        if ix >= m && ix + m < nx && iy >= m && iy + m < self.ny {
-            let row = nx as isize;
-            let dvdx = self.cx.interior(|o| v[(k as isize + o) as usize]);
-            let dudy = self.cy.interior(|o| u[(k as isize + o * row) as usize]);
-            // Non-finite: a masked neighbour in the stencil; the checked path handles it.
-            if dvdx.is_finite() && dudy.is_finite() {
-                return Some(dvdx - dudy);
+        Some(self.along_x(v, k, ix)? - self.along_y(u, k, iy)?)
+    }
+
+    /// ∂/∂x of `data` at flat index `k` (column `ix`), the centre known to be valid.
+    #[inline]
+    fn along_x(&self, data: &[f64], k: usize, ix: usize) -> Option<f64> {
+        Self::derivative_at(&self.cx, data, k, ix, self.nx, 1, self.margin)
+    }
+
+    /// ∂/∂y of `data` at flat index `k` (row `iy`), the centre known to be valid.
+    #[inline]
+    fn along_y(&self, data: &[f64], k: usize, iy: usize) -> Option<f64> {
+        Self::derivative_at(&self.cy, data, k, iy, self.ny, self.nx, self.margin)
+    }
+
+    /// The derivative along one axis (position `i` of `n`, neighbours `stride` apart): the
+    /// interior stencil read without checks where it lies inside the grid and holds no masked
+    /// sample (most points, also those that need the checked path on the other axis only),
+    /// else the mask- and edge-aware [`AxisCoeffs::derivative`]. Identical bits either way:
+    /// with every stencil sample present the checked path evaluates the same interior formula.
+    #[inline(always)]
+    fn derivative_at(
+        c: &AxisCoeffs,
+        data: &[f64],
+        k: usize,
+        i: usize,
+        n: usize,
+        stride: usize,
+        margin: usize,
+    ) -> Option<f64> {
+        if i >= margin && i + margin < n {
+            let d = c.interior(|o| data[(k as isize + o * stride as isize) as usize]);
+            // Non-finite: a masked sample in the stencil.
+            if d.is_finite() {
+                return Some(d);
             }
         }
-        let dvdx = self.cx.derivative(line_get(v, k, ix, nx, 1))?;
-        let dudy = self.cy.derivative(line_get(u, k, iy, self.ny, nx))?;
-        // The other two derivatives decide `None` in `tensor_at`; with the shared mask they
-        // exist whenever these do.
-        Some(dvdx - dudy)
+        c.derivative(line_get(data, k, i, n, stride))
     }
 
     /// Fills `buf` (four rows of length nx: ∂u/∂x, ∂u/∂y, ∂v/∂x, ∂v/∂y) with the tensor of row
@@ -468,9 +490,11 @@ mod tests {
     }
 
     #[test]
-    fn vorticity_at_is_the_tensor_vorticity_bit_for_bit() {
-        // The sense of a candidate sums `vorticity_at` instead of the tensor's ω: the two must
-        // agree exactly, `None` included, next to masks, at edges and for isolated vectors.
+    fn point_tensor_and_vorticity_equal_the_checked_path_bit_for_bit() {
+        // `tensor_at` (the fallback of the fused kernels) reads complete interior stencils
+        // without checks, and the sense of a candidate sums `vorticity_at`: both must equal
+        // the checked path exactly, `None` included, next to masks, at edges and for isolated
+        // vectors.
         let mut f = field(
             14,
             11,
@@ -492,9 +516,23 @@ mod tests {
         for s in GradientScheme::ALL {
             for e in [EdgeOrder::First, EdgeOrder::Second] {
                 let ctx = PlaneCtx::new(&f, s, e).unwrap();
+                let (u, v) = ctx.slices();
                 for iy in 0..11 {
                     for ix in 0..14 {
-                        let from_tensor = ctx.tensor_at(iy, ix).map(|t| t.0[1][0] - t.0[0][1]);
+                        // Reference: the checked path for every derivative, as `tensor_at`
+                        // was written before the unchecked interior reads.
+                        let k = iy * 14 + ix;
+                        let checked = (!u[k].is_nan())
+                            .then(|| {
+                                let dx = |d| ctx.cx.derivative(line_get(d, k, ix, 14, 1));
+                                let dy = |d| ctx.cy.derivative(line_get(d, k, iy, 11, 14));
+                                Some(Tensor2([[dx(u)?, dy(u)?], [dx(v)?, dy(v)?]]))
+                            })
+                            .flatten();
+                        let bits = |t: Option<Tensor2>| t.map(|t| t.0.map(|r| r.map(f64::to_bits)));
+                        let tensor = ctx.tensor_at(iy, ix);
+                        assert_eq!(bits(tensor), bits(checked), "{s:?} {e:?} at {iy},{ix}");
+                        let from_tensor = checked.map(|t| t.0[1][0] - t.0[0][1]);
                         let direct = ctx.vorticity_at(iy, ix);
                         assert_eq!(
                             direct.map(f64::to_bits),
