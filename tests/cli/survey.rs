@@ -183,6 +183,13 @@ fn a_corrupt_file_is_recorded_and_the_batch_goes_on() {
     let run = survey(&[&data], &out, &[]);
     assert_eq!(run.code, 3, "{}", run.stderr);
     assert!(run.stderr.contains("snap_0009.npz"), "{}", run.stderr);
+    // The unreadable file gives no snapshot, so the summary line must name it separately.
+    assert!(
+        run.stdout
+            .contains("3 snapshots (0 failed, 1 input file unreadable)"),
+        "{}",
+        run.stdout
+    );
     let manifest: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
     let bad: Vec<&serde_json::Value> = manifest["inputs"]

@@ -579,8 +579,15 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         );
     }
     print!("{}", summary_table(&rows, &units));
+    // An input that could not even be opened contributes no snapshot, so it is not among the
+    // failed snapshots; say so on the summary line, or "0 failed" reads as a clean run.
+    let unreadable = match input_failures.len() {
+        0 => String::new(),
+        1 => ", 1 input file unreadable".to_string(),
+        n => format!(", {n} input files unreadable"),
+    };
     println!(
-        "{} snapshots ({} failed), {} vortices ({} flagged) -> {}",
+        "{} snapshots ({} failed{unreadable}), {} vortices ({} flagged) -> {}",
         jobs.len(),
         failed_snapshots,
         rows.len(),
