@@ -37,12 +37,7 @@ pub fn write_atomic_pieces<'a>(
     path: &Path,
     pieces: impl IntoIterator<Item = &'a [u8]>,
 ) -> anyhow::Result<()> {
-    let dir = path.parent().unwrap_or(Path::new("."));
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+    let tmp = temporary_beside(path);
     {
         let file =
             fs::File::create(&tmp).with_context(|| format!("{}: cannot write", tmp.display()))?;
@@ -54,25 +49,35 @@ pub fn write_atomic_pieces<'a>(
         let file = w
             .into_inner()
             .map_err(|e| anyhow::anyhow!("{}: cannot write: {}", tmp.display(), e.error()))?;
-        file.sync_all()?;
+        file.sync_all()
+            .with_context(|| format!("{}: cannot flush to disk", tmp.display()))?;
     }
     fs::rename(&tmp, path).with_context(|| format!("{}: cannot write", path.display()))?;
     Ok(())
 }
 
-fn write_via_rename(path: &Path, bytes: &[u8], sync: bool) -> anyhow::Result<()> {
+/// The temporary file a result is written to before the rename: hidden, in the same folder
+/// (a rename is atomic only within one file system) and named after the process, so that two
+/// runs on one folder cannot write into each other's temporary files.
+fn temporary_beside(path: &Path) -> PathBuf {
     let dir = path.parent().unwrap_or(Path::new("."));
     let name = path
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
-    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+    dir.join(format!(".{name}.tmp-{}", std::process::id()))
+}
+
+fn write_via_rename(path: &Path, bytes: &[u8], sync: bool) -> anyhow::Result<()> {
+    let tmp = temporary_beside(path);
     {
         let mut f =
             fs::File::create(&tmp).with_context(|| format!("{}: cannot write", tmp.display()))?;
-        f.write_all(bytes)?;
+        f.write_all(bytes)
+            .with_context(|| format!("{}: cannot write", tmp.display()))?;
         if sync {
-            f.sync_all()?;
+            f.sync_all()
+                .with_context(|| format!("{}: cannot flush to disk", tmp.display()))?;
         }
     }
     fs::rename(&tmp, path).with_context(|| format!("{}: cannot write", path.display()))?;
