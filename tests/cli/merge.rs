@@ -70,6 +70,39 @@ fn merged_shards_equal_a_single_survey() {
 }
 
 #[test]
+fn merge_reports_an_unreadable_input_and_exits_3() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth_small(&data, 3, &[]);
+    std::fs::write(data.join("snap_0009.npz"), b"PK\x03\x04 not a zip").unwrap();
+    let sharded = dir.path().join("sharded");
+    for k in 0..2 {
+        let spec = format!("{k}/2");
+        let run = vortcat([
+            "survey",
+            data.to_str().unwrap(),
+            "--out",
+            sharded.to_str().unwrap(),
+            "--shard",
+            spec.as_str(),
+            "--progress",
+            "none",
+        ]);
+        // Shard 0 reports the unreadable input; shard 1's snapshots are all good.
+        assert_eq!(run.code, if k == 0 { 3 } else { 0 }, "{}", run.stderr);
+    }
+    let run = vortcat(["merge", sharded.to_str().unwrap()]);
+    assert_eq!(run.code, 3, "{}", run.stderr);
+    // The corrupt file gives no snapshot, so the line must count it apart from the failures.
+    assert!(
+        run.stdout
+            .contains("3 snapshots (0 failed, 1 input file unreadable)"),
+        "{}",
+        run.stdout
+    );
+}
+
+#[test]
 fn merge_refuses_incomplete_or_inconsistent_shards() {
     let dir = tempfile::tempdir().unwrap();
     let data = dir.path().join("data");

@@ -333,8 +333,9 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
     };
     write_outputs(&out, &assembled, &meta)?;
     println!(
-        "merged {count} shards: {} snapshots ({failed} failed), {} vortices -> {}",
+        "merged {count} shards: {} snapshots ({}), {} vortices -> {}",
         assembled.statuses.len(),
+        crate::survey::failure_counts(failed, input_failures),
         assembled.rows.len(),
         out.join("catalog.csv").display()
     );

@@ -579,17 +579,10 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         );
     }
     print!("{}", summary_table(&rows, &units));
-    // An input that could not even be opened contributes no snapshot, so it is not among the
-    // failed snapshots; say so on the summary line, or "0 failed" reads as a clean run.
-    let unreadable = match input_failures.len() {
-        0 => String::new(),
-        1 => ", 1 input file unreadable".to_string(),
-        n => format!(", {n} input files unreadable"),
-    };
     println!(
-        "{} snapshots ({} failed{unreadable}), {} vortices ({} flagged) -> {}",
+        "{} snapshots ({}), {} vortices ({} flagged) -> {}",
         jobs.len(),
-        failed_snapshots,
+        failure_counts(failed_snapshots, input_failures.len()),
         rows.len(),
         rows.iter().filter(|r| !r.flags.is_empty()).count(),
         out.join("catalog.csv").display()
@@ -641,6 +634,18 @@ pub(crate) struct RunMeta {
 }
 
 /// This process's peak resident memory (Linux `VmHWM`), in MiB; `None` elsewhere.
+/// The failure part of a run's summary line, e.g. `2 failed` or `0 failed, 1 input file
+/// unreadable`. An input that could not even be opened contributes no snapshot, so it is not
+/// among the failed snapshots; without its own count, "0 failed" would read as a clean run
+/// beside exit code 3.
+pub(crate) fn failure_counts(failed_snapshots: usize, unreadable_inputs: usize) -> String {
+    match unreadable_inputs {
+        0 => format!("{failed_snapshots} failed"),
+        1 => format!("{failed_snapshots} failed, 1 input file unreadable"),
+        n => format!("{failed_snapshots} failed, {n} input files unreadable"),
+    }
+}
+
 fn peak_rss_mib() -> Option<f64> {
     let status = std::fs::read_to_string("/proc/self/status").ok()?;
     let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
@@ -957,4 +962,17 @@ fn group_runs<'a>(pending: &[&'a Job], threads: usize) -> Vec<Vec<&'a Job>> {
         }
     }
     runs
+}
+
+#[cfg(test)]
+mod tests {
+    use super::failure_counts;
+
+    #[test]
+    fn unreadable_inputs_are_counted_apart_from_failed_snapshots() {
+        assert_eq!(failure_counts(0, 0), "0 failed");
+        assert_eq!(failure_counts(2, 0), "2 failed");
+        assert_eq!(failure_counts(0, 1), "0 failed, 1 input file unreadable");
+        assert_eq!(failure_counts(1, 3), "1 failed, 3 input files unreadable");
+    }
 }
