@@ -1,10 +1,10 @@
 //! The per-vortex catalog: one row per fitted vortex, written as CSV and as JSON lines, with
 //! a units table beside them. Columns are described in `docs/catalog.md`.
 
-use std::io::Write;
 use std::path::Path;
 
 use serde::Serialize;
+use serde_json::value::RawValue;
 
 /// One catalog row. `None` is an empty CSV field and a JSON `null`: the value does not apply
 /// (e.g. strain rate for a Lamb–Oseen fit) or could not be computed. The type is the report
@@ -95,6 +95,12 @@ pub struct Lines {
 impl Lines {
     /// The lines of `rows`.
     pub fn of<T: Serialize>(rows: &[T]) -> anyhow::Result<Self> {
+        Self::with_json(rows, &super::store::json_rows(rows)?)
+    }
+
+    /// The lines of `rows` whose JSON texts are at hand (`json[i]` is that of `rows[i]`, as
+    /// `serde_json` writes it); the CSV records are serialised here.
+    pub fn with_json<T: Serialize>(rows: &[T], json: &[Box<RawValue>]) -> anyhow::Result<Self> {
         let mut w = csv::WriterBuilder::new()
             .has_headers(false)
             .from_writer(Vec::new());
@@ -102,10 +108,10 @@ impl Lines {
             w.serialize(r)?;
         }
         let csv = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-        let mut jsonl = Vec::new();
-        for r in rows {
-            serde_json::to_writer(&mut jsonl, r)?;
-            jsonl.write_all(b"\n")?;
+        let mut jsonl = Vec::with_capacity(json.iter().map(|j| j.get().len() + 1).sum());
+        for j in json {
+            jsonl.extend_from_slice(j.get().as_bytes());
+            jsonl.push(b'\n');
         }
         Ok(Self { csv, jsonl })
     }
@@ -136,11 +142,20 @@ pub fn write_lines(
     let header = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
     use crate::survey::store::write_atomic_pieces;
     let csv = std::iter::once(header.as_slice()).chain(groups.iter().map(|g| g.csv.as_slice()));
-    write_atomic_pieces(&dir.join(format!("{stem}.csv")), csv)?;
-    write_atomic_pieces(
-        &dir.join(format!("{stem}.jsonl")),
-        groups.iter().map(|g| g.jsonl.as_slice()),
-    )
+    // The two files are written (and synced) at the same time: this is the serial tail of a
+    // survey, and each write waits mostly on the kernel's copy and the fsync.
+    let (csv_written, jsonl_written) = std::thread::scope(|scope| {
+        let jsonl = scope.spawn(|| {
+            write_atomic_pieces(
+                &dir.join(format!("{stem}.jsonl")),
+                groups.iter().map(|g| g.jsonl.as_slice()),
+            )
+        });
+        let csv_written = write_atomic_pieces(&dir.join(format!("{stem}.csv")), csv);
+        (csv_written, jsonl.join())
+    });
+    csv_written?;
+    jsonl_written.map_err(|_| anyhow::anyhow!("the thread writing {stem}.jsonl panicked"))?
 }
 
 /// Writes a units table (`column, unit, description`) for `columns`, resolving each unit kind
