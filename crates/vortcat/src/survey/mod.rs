@@ -409,7 +409,12 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             let mut saved = HashMap::new();
             for part in from_workers {
                 // The catalog lines too, while the workers compute, not all at the end.
-                match store.save(&part).and_then(|()| Lines::of(&part.rows)) {
+                // Each row is serialised to JSON once, for the part and for the JSON lines.
+                let saved_lines = store::json_rows(&part.rows).and_then(|json| {
+                    store.save_with_rows(&part, &json)?;
+                    Lines::with_json(&part.rows, &json)
+                });
+                match saved_lines {
                     Ok(lines) => {
                         saved.insert((part.file.clone(), part.index), (part, lines));
                     }

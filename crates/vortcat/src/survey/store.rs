@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use serde::{Deserialize, Serialize};
+use serde_json::value::RawValue;
 use sha2::{Digest, Sha256};
 
 use super::catalog::CatalogRow;
@@ -184,12 +185,68 @@ impl Store {
     }
 
     /// Stores a part atomically.
+    #[cfg(test)]
     pub fn save(&self, part: &Part) -> anyhow::Result<()> {
+        self.save_with_rows(part, &json_rows(&part.rows)?)
+    }
+
+    /// Stores a part atomically whose rows are already serialised (`rows_json[i]` is the JSON
+    /// of `part.rows[i]`), so that the survey serialises each row once for the part and for
+    /// the catalog's JSON lines. The bytes are those of [`Store::save`].
+    pub fn save_with_rows(&self, part: &Part, rows_json: &[Box<RawValue>]) -> anyhow::Result<()> {
+        anyhow::ensure!(
+            rows_json.len() == part.rows.len(),
+            "internal: {} serialised rows for {} rows",
+            rows_json.len(),
+            part.rows.len()
+        );
+        let view = PartView {
+            snapshot: &part.snapshot,
+            file: &part.file,
+            index: part.index,
+            source_blake3: &part.source_blake3,
+            config_sha256: &part.config_sha256,
+            status: &part.status,
+            error: &part.error,
+            candidates: part.candidates,
+            rows: rows_json,
+            stations: &part.stations,
+            tubes: &part.tubes,
+            timing: &part.timing,
+        };
         let path = self
             .dir
             .join(Self::key(&part.file, &part.source_blake3, part.index));
-        write_unsynced(&path, &serde_json::to_vec(part)?)
+        write_unsynced(&path, &serde_json::to_vec(&view)?)
     }
+}
+
+/// The JSON text of each row, serialised once.
+pub fn json_rows<T: Serialize>(rows: &[T]) -> anyhow::Result<Vec<Box<RawValue>>> {
+    Ok(rows
+        .iter()
+        .map(serde_json::value::to_raw_value)
+        .collect::<Result<_, _>>()?)
+}
+
+/// [`Part`] with its rows already serialised: the same fields in the same order (a unit test
+/// checks the bytes against serialising the `Part` itself).
+#[derive(Serialize)]
+struct PartView<'a> {
+    snapshot: &'a str,
+    file: &'a str,
+    index: usize,
+    source_blake3: &'a str,
+    config_sha256: &'a str,
+    status: &'a str,
+    error: &'a Option<String>,
+    candidates: usize,
+    rows: &'a [Box<RawValue>],
+    #[serde(skip_serializing_if = "<[_]>::is_empty")]
+    stations: &'a [StationRow],
+    #[serde(skip_serializing_if = "<[_]>::is_empty")]
+    tubes: &'a [TubeRow],
+    timing: &'a Timing,
 }
 
 #[cfg(test)]
@@ -212,6 +269,37 @@ mod tests {
             tubes: vec![],
             timing: Timing::default(),
         }
+    }
+
+    #[test]
+    fn rows_serialised_ahead_give_the_bytes_of_the_part() {
+        let dir = tempfile::tempdir().unwrap();
+        let store = Store::open(dir.path()).unwrap();
+        let mut part = done_part("dir/a \"b\" é.npz", "abc", 3, "cfg");
+        part.error = Some("a note".into());
+        part.candidates = 2;
+        part.timing.detect = 0.125;
+        for vortex in 1..=2 {
+            part.rows.push(CatalogRow {
+                snapshot: "dir/a \"b\" é.npz#3".into(),
+                vortex,
+                circulation: Some(1.0 / 3.0 * vortex as f64),
+                core_radius: None,
+                flags: "edge;noisy".into(),
+                ..CatalogRow::default()
+            });
+        }
+        store
+            .save_with_rows(&part, &json_rows(&part.rows).unwrap())
+            .unwrap();
+        let path = dir
+            .path()
+            .join("parts")
+            .join(Store::key(&part.file, "abc", 3));
+        assert_eq!(fs::read(&path).unwrap(), serde_json::to_vec(&part).unwrap());
+        assert_eq!(store.load(&part.file, "abc", 3).unwrap().rows, part.rows);
+        // A mismatched list is refused rather than written.
+        assert!(store.save_with_rows(&part, &[]).is_err());
     }
 
     #[test]
