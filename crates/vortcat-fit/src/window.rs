@@ -155,30 +155,82 @@ impl Window {
         for column in [&mut w.x, &mut w.y, &mut w.u, &mut w.v] {
             column.reserve(expected);
         }
+        // A node is inside when dx² + dy² ≤ r², in exactly this arithmetic (centre and radius
+        // are finite, checked above, so no comparison meets a NaN). Along a row dx is
+        // monotone in the index (so is its rounding), so the nodes inside form one run: it is
+        // found from the circle's chord and corrected at both ends by the exact test, and the
+        // run is then copied without a test per node.
+        let inside = |i: i64, dy2: f64| {
+            let dx = ax.coordinate(i as f64) - centre[0];
+            dx * dx + dy2 <= r2
+        };
         for j in j0..=j1 {
             let yc = ay.coordinate(j as f64);
             let dy = yc - centre[1];
             let dy2 = dy * dy;
-            for i in i0..=i1 {
-                let xc = ax.coordinate(i as f64);
-                let dx = xc - centre[0];
-                if dx * dx + dy2 > r2 {
-                    continue;
-                }
-                if i < 0 || j < 0 || i >= nx || j >= ny {
-                    w.outside += 1;
-                    continue;
-                }
-                let idx = j as usize * nx as usize + i as usize;
-                let (uu, vv) = (u[idx], v[idx]);
-                if !valid[idx] || !uu.is_finite() || !vv.is_finite() {
-                    w.invalid += 1;
-                    continue;
-                }
-                w.x.push(xc);
-                w.y.push(yc);
-                w.u.push(uu);
-                w.v.push(vv);
+            // dx² + dy² ≥ dy² in floating point too: no node of this row is inside.
+            if dy2 > r2 {
+                continue;
+            }
+            let half = (r2 - dy2).sqrt() / w.spacing[0];
+            let mut lo = ((ix_c - half).floor() as i64).clamp(i0, i1);
+            let mut hi = ((ix_c + half).ceil() as i64).clamp(i0, i1);
+            while lo > i0 && inside(lo - 1, dy2) {
+                lo -= 1;
+            }
+            while lo <= hi && !inside(lo, dy2) {
+                lo += 1;
+            }
+            while hi < i1 && inside(hi + 1, dy2) {
+                hi += 1;
+            }
+            while hi >= lo && !inside(hi, dy2) {
+                hi -= 1;
+            }
+            if lo > hi {
+                continue;
+            }
+            let run = (hi - lo + 1) as usize;
+            if j < 0 || j >= ny {
+                w.outside += run;
+                continue;
+            }
+            let (a, b) = (lo.max(0), hi.min(nx - 1));
+            let in_domain = if a <= b { (b - a + 1) as usize } else { 0 };
+            w.outside += run - in_domain;
+            if in_domain == 0 {
+                continue;
+            }
+            // Branch-free compaction: every node of the run is written at the next free
+            // place, which advances only for a valid vector.
+            let start = w.x.len();
+            for column in [&mut w.x, &mut w.y, &mut w.u, &mut w.v] {
+                column.resize(start + in_domain, 0.0);
+            }
+            let row = j as usize * nx as usize;
+            let (xs, ys, us, vs) = (
+                &mut w.x[start..],
+                &mut w.y[start..],
+                &mut w.u[start..],
+                &mut w.v[start..],
+            );
+            let (u_row, v_row, valid_row) = (
+                &u[row + a as usize..=row + b as usize],
+                &v[row + a as usize..=row + b as usize],
+                &valid[row + a as usize..=row + b as usize],
+            );
+            let mut kept = 0;
+            for (n, ((&uu, &vv), &ok)) in u_row.iter().zip(v_row).zip(valid_row).enumerate() {
+                let ok = ok & uu.is_finite() & vv.is_finite();
+                xs[kept] = ax.coordinate((a + n as i64) as f64);
+                ys[kept] = yc;
+                us[kept] = uu;
+                vs[kept] = vv;
+                kept += usize::from(ok);
+            }
+            w.invalid += in_domain - kept;
+            for column in [&mut w.x, &mut w.y, &mut w.u, &mut w.v] {
+                column.truncate(start + kept);
             }
         }
         Ok(w)
@@ -309,5 +361,92 @@ mod tests {
         // 317 = 1 (origin) + 4·10 (axes) + 4·69 (open quadrants); inside the domain are the
         // quadrant x ≥ 0, y ≥ 0 with its two half-axes: 69 + 10 + 10 + 1 = 90.
         assert_eq!(corner.len(), 90);
+    }
+
+    /// The node-by-node selection `from_plane` replaced: every node of the bounding square
+    /// tested against the circle. Kept as the reference for the run-by-run version.
+    fn node_by_node(
+        field: &PlaneField,
+        centre: [f64; 2],
+        radius: f64,
+    ) -> (Vec<[f64; 4]>, usize, usize) {
+        let (ax, ay) = (field.grid().x(), field.grid().y());
+        let (ix_c, iy_c) = (ax.index_of(centre[0]), ay.index_of(centre[1]));
+        let (rx, ry) = (radius / ax.spacing().abs(), radius / ay.spacing().abs());
+        let (nx, ny) = (ax.len() as i64, ay.len() as i64);
+        let (mut kept, mut invalid, mut outside) = (Vec::new(), 0, 0);
+        let r2 = radius * radius;
+        for j in (iy_c - ry).floor() as i64 - 1..=(iy_c + ry).ceil() as i64 + 1 {
+            let yc = ay.coordinate(j as f64);
+            let dy = yc - centre[1];
+            for i in (ix_c - rx).floor() as i64 - 1..=(ix_c + rx).ceil() as i64 + 1 {
+                let xc = ax.coordinate(i as f64);
+                let dx = xc - centre[0];
+                if dx * dx + dy * dy > r2 {
+                    continue;
+                }
+                if i < 0 || j < 0 || i >= nx || j >= ny {
+                    outside += 1;
+                    continue;
+                }
+                let (uu, vv) = (
+                    field.u()[[j as usize, i as usize]],
+                    field.v()[[j as usize, i as usize]],
+                );
+                if !field.valid()[[j as usize, i as usize]] || !uu.is_finite() || !vv.is_finite() {
+                    invalid += 1;
+                    continue;
+                }
+                kept.push([xc, yc, uu, vv]);
+            }
+        }
+        (kept, invalid, outside)
+    }
+
+    proptest::proptest! {
+        /// The run-by-run selection keeps exactly the nodes, in the same order and with the
+        /// same bits, and counts exactly the invalid and outside nodes of the node-by-node
+        /// test, for any centre (inside, near or beyond the edges), radius, spacing sign and
+        /// mask. Radii that are whole multiples of the spacing put nodes exactly on the circle.
+        #[test]
+        fn runs_select_the_nodes_of_the_node_by_node_test(
+            cx in -3.0f64..40.0,
+            cy in -3.0f64..30.0,
+            radius_spacings in 0.3f64..12.0,
+            on_the_circle in proptest::bool::ANY,
+            flip_x in proptest::bool::ANY,
+            seed in 0u64..1000,
+        ) {
+            let (nx, ny, h) = (37usize, 29usize, 0.1);
+            let (x0, hx) = if flip_x { (3.6, -h) } else { (0.0, h) };
+            let grid = Grid::plane(
+                Axis::new("x", nx, x0, hx).unwrap(),
+                Axis::new("y", ny, 0.0, h).unwrap(),
+                Units::default(),
+            );
+            let mut u = Array2::from_shape_fn((ny, nx), |(j, i)| (i * 31 + j * 7) as f64 * 0.01);
+            let v = Array2::from_shape_fn((ny, nx), |(j, i)| (i as f64 - j as f64) * 0.02);
+            // About 5 % masked vectors, placed by the seed.
+            for k in 0..(nx * ny / 20) {
+                let flat = (seed as usize * 7919 + k * 104_729) % (nx * ny);
+                u[[flat / nx, flat % nx]] = f64::NAN;
+            }
+            let field = PlaneField::new(grid, u, v, None, None).unwrap();
+            let radius = if on_the_circle { radius_spacings.round().max(1.0) * h } else { radius_spacings * h };
+            let centre = if on_the_circle {
+                // A node as centre: nodes at whole-spacing offsets lie exactly on the circle.
+                [field.grid().x().coordinate((cx * 10.0 / 4.0).round().clamp(0.0, 36.0)),
+                 field.grid().y().coordinate((cy * 10.0 / 3.0).round().clamp(0.0, 28.0))]
+            } else {
+                [x0 + hx * cx, h * cy]
+            };
+            let w = Window::from_plane(&field, centre, radius).unwrap();
+            let (kept, invalid, outside) = node_by_node(&field, centre, radius);
+            let got: Vec<[f64; 4]> = (0..w.len()).map(|k| [w.x()[k], w.y()[k], w.u()[k], w.v()[k]]).collect();
+            let bits = |rows: &[[f64; 4]]| rows.iter().map(|r| r.map(f64::to_bits)).collect::<Vec<_>>();
+            proptest::prop_assert_eq!(bits(&got), bits(&kept));
+            proptest::prop_assert_eq!(w.invalid_count(), invalid);
+            proptest::prop_assert_eq!(w.outside_count(), outside);
+        }
     }
 }
