@@ -519,6 +519,56 @@ mod tests {
         );
     }
 
+    /// Longer fields than the small cases above (vector widths and loop tails of the fused
+    /// pass): it gives exactly what the point rule gives (valid = no NaN in any component and
+    /// not flagged; NaN written where invalid; infinite values counted per component).
+    #[test]
+    fn the_fused_pass_equals_the_point_rule_on_longer_fields() {
+        for (len, n_comps, with_flags) in [
+            (200, 2, false),
+            (200, 2, true),
+            (129, 3, true),
+            (64, 3, false),
+        ] {
+            let value = |k: usize, i: usize| match (i * 7 + k * 13) % 23 {
+                0 => f64::NAN,
+                5 if k == 1 => f64::INFINITY,
+                _ => (i + k) as f64,
+            };
+            let mut comps: Vec<Vec<f64>> = (0..n_comps)
+                .map(|k| (0..len).map(|i| value(k, i)).collect())
+                .collect();
+            let flagged: Vec<bool> = (0..len).map(|i| i % 17 == 3).collect();
+            let expected_valid: Vec<bool> = (0..len)
+                .map(|i| (0..n_comps).all(|k| !value(k, i).is_nan()) && !(with_flags && flagged[i]))
+                .collect();
+            let infinite = (0..len).filter(|&i| value(1, i).is_infinite()).count();
+            let mut valid = vec![true; len];
+            let names = ["u", "v", "w"];
+            let mut slices: Vec<&mut [f64]> = comps.iter_mut().map(|c| c.as_mut_slice()).collect();
+            let result = mark_valid(
+                &names[..n_comps],
+                &mut slices,
+                with_flags.then_some(flagged.as_slice()),
+                &mut valid,
+            );
+            assert!(
+                matches!(&result, Err(FieldError::NonFinite { component, count }) if component == "v" && *count == infinite),
+                "{result:?}"
+            );
+            assert_eq!(valid, expected_valid, "len {len}, {n_comps} components");
+            for (k, c) in comps.iter().enumerate() {
+                for (i, x) in c.iter().enumerate() {
+                    if expected_valid[i] {
+                        assert_eq!(x.to_bits(), value(k, i).to_bits());
+                    } else {
+                        assert!(x.is_nan());
+                    }
+                }
+            }
+        }
+    }
+
     #[test]
     fn snapshot_id_display() {
         assert_eq!(SnapshotId::new("run/a.h5", 7).to_string(), "run/a.h5#7");
