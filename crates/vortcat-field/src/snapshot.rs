@@ -104,8 +104,8 @@ fn mark_valid<T: Component>(
 ) -> Result<(), FieldError> {
     let mut infinite = vec![0usize; comps.len()];
     let invalid = match (comps, flagged) {
-        ([a, b], None) => fused::<T, 2, false>([a, b], &[], valid, &mut infinite),
-        ([a, b], Some(f)) => fused::<T, 2, true>([a, b], f, valid, &mut infinite),
+        ([a, b], None) => fused2::<T, false>(a, b, &[], valid, &mut infinite),
+        ([a, b], Some(f)) => fused2::<T, true>(a, b, f, valid, &mut infinite),
         ([a, b, c], None) => fused::<T, 3, false>([a, b, c], &[], valid, &mut infinite),
         ([a, b, c], Some(f)) => fused::<T, 3, true>([a, b, c], f, valid, &mut infinite),
         (comps, flagged) => {
@@ -140,6 +140,34 @@ fn mark_valid<T: Component>(
         return Err(FieldError::NoValidVectors);
     }
     Ok(())
+}
+
+/// [`fused`] for two components (planes), written over two named slices: indexing the array
+/// of slices kept that loop scalar, with a bounds check per component and point.
+fn fused2<T: Component, const FLAGGED: bool>(
+    a: &mut [T],
+    b: &mut [T],
+    flagged: &[bool],
+    valid: &mut [bool],
+    infinite: &mut [usize],
+) -> usize {
+    let len = valid.len();
+    let (a, b) = (&mut a[..len], &mut b[..len]);
+    let flagged = if FLAGGED { &flagged[..len] } else { flagged };
+    let (mut inf_a, mut inf_b, mut invalid) = (0usize, 0usize, 0usize);
+    for i in 0..len {
+        let (x, y) = (a[i], b[i]);
+        inf_a += usize::from(x.is_infinite());
+        inf_b += usize::from(y.is_infinite());
+        let bad = x.is_nan() | y.is_nan() | (FLAGGED && flagged[i]);
+        valid[i] = !bad;
+        invalid += usize::from(bad);
+        a[i] = if bad { T::NAN } else { x };
+        b[i] = if bad { T::NAN } else { y };
+    }
+    infinite[0] = inf_a;
+    infinite[1] = inf_b;
+    invalid
 }
 
 /// The pass of [`mark_valid`] for `N` components (`FLAGGED`: `flagged` holds the rejected
