@@ -3,6 +3,8 @@
 // Index loops over the parameter vector mirror the covariance formulas.
 #![allow(clippy::needless_range_loop)]
 
+use std::sync::Arc;
+
 use argmin::core::{Executor, State, TerminationReason};
 
 use crate::error::FitError;
@@ -34,9 +36,67 @@ struct Setup<M> {
     names: Vec<String>,
 }
 
+/// A window's samples in solver units (positions relative to the window centre over its
+/// radius, velocities over the rms velocity fluctuation) with the statistics behind the
+/// velocity scale. A function of the window alone: computed once for every model fitted to
+/// the same window ([`crate::fit_and_select`]), shared by reference counting.
+#[derive(Clone)]
+pub(crate) struct ScaledWindow {
+    x: Arc<[f64]>,
+    y: Arc<[f64]>,
+    u: Arc<[f64]>,
+    v: Arc<[f64]>,
+    /// Mean velocity of the window and the total sum of squares about it.
+    mean: [f64; 2],
+    tss: f64,
+    /// The velocity scale.
+    velocity: f64,
+}
+
+impl ScaledWindow {
+    pub(crate) fn of(window: &Window) -> Self {
+        let len = window.radius();
+        let nf = window.len() as f64;
+        let (mean, fluct) = window_statistics(window);
+        let mut vel = (fluct / nf).sqrt();
+        if !(vel > 0.0 && vel.is_finite()) {
+            vel = window
+                .u()
+                .iter()
+                .chain(window.v())
+                .fold(0.0, |m: f64, x| m.max(x.abs()));
+        }
+        if !(vel > 0.0 && vel.is_finite()) {
+            vel = 1.0;
+        }
+        let origin = window.centre();
+        // Multiplications by the reciprocal scales (vectorised; a division per value would cost
+        // more than a solver evaluation of the data).
+        let (inv_len, inv_vel) = (1.0 / len, 1.0 / vel);
+        Self {
+            x: window
+                .x()
+                .iter()
+                .map(|x| (x - origin[0]) * inv_len)
+                .collect(),
+            y: window
+                .y()
+                .iter()
+                .map(|y| (y - origin[1]) * inv_len)
+                .collect(),
+            u: window.u().iter().map(|u| u * inv_vel).collect(),
+            v: window.v().iter().map(|v| v * inv_vel).collect(),
+            mean,
+            tss: fluct,
+            velocity: vel,
+        }
+    }
+}
+
 fn setup<M: VortexModel>(
     model: &M,
     window: &Window,
+    scaled: &ScaledWindow,
     settings: &FitSettings,
 ) -> Result<Setup<M>, FitError> {
     settings.validate()?;
@@ -54,41 +114,18 @@ fn setup<M: VortexModel>(
         });
     }
     let len = window.radius();
-    let nf = window.len() as f64;
-    let (mean, fluct) = window_statistics(window);
-    let mut vel = (fluct / nf).sqrt();
-    if !(vel > 0.0 && vel.is_finite()) {
-        vel = window
-            .u()
-            .iter()
-            .chain(window.v())
-            .fold(0.0, |m: f64, x| m.max(x.abs()));
-    }
-    if !(vel > 0.0 && vel.is_finite()) {
-        vel = 1.0;
-    }
+    let vel = scaled.velocity;
     let scales = Scales {
         origin: window.centre(),
         length: len,
         velocity: vel,
     };
-    // Multiplications by the reciprocal scales (vectorised; a division per value would cost
-    // more than a solver evaluation of the data).
-    let (inv_len, inv_vel) = (1.0 / len, 1.0 / vel);
     let problem = FitProblem {
         model: model.rescaled(len, vel),
-        x: window
-            .x()
-            .iter()
-            .map(|x| (x - scales.origin[0]) * inv_len)
-            .collect(),
-        y: window
-            .y()
-            .iter()
-            .map(|y| (y - scales.origin[1]) * inv_len)
-            .collect(),
-        u: window.u().iter().map(|u| u * inv_vel).collect(),
-        v: window.v().iter().map(|v| v * inv_vel).collect(),
+        x: scaled.x.clone(),
+        y: scaled.y.clone(),
+        u: scaled.u.clone(),
+        v: scaled.v.clone(),
         quad: settings
             .piv_averaging
             .map(|a| a.offsets(len))
@@ -127,8 +164,8 @@ fn setup<M: VortexModel>(
     }
     Ok(Setup {
         problem,
-        mean,
-        tss: fluct,
+        mean: scaled.mean,
+        tss: scaled.tss,
         scales,
         lo,
         hi,
@@ -216,7 +253,14 @@ pub fn fit<M: VortexModel>(
     guess: &InitialGuess,
     settings: &FitSettings,
 ) -> Result<FitResult, FitError> {
-    fit_at(model, window, guess, guess.centre, settings)
+    fit_at(
+        model,
+        window,
+        &ScaledWindow::of(window),
+        guess,
+        guess.centre,
+        settings,
+    )
 }
 
 /// [`fit`] with the solver started at `start_centre` instead of the guess's centre, which
@@ -224,6 +268,7 @@ pub fn fit<M: VortexModel>(
 pub(crate) fn fit_at<M: VortexModel>(
     model: &M,
     window: &Window,
+    scaled: &ScaledWindow,
     guess: &InitialGuess,
     start_centre: [f64; 2],
     settings: &FitSettings,
@@ -238,7 +283,7 @@ pub(crate) fn fit_at<M: VortexModel>(
             });
         }
     }
-    let s = setup(model, window, settings)?;
+    let s = setup(model, window, scaled, settings)?;
     let nm = model.n_params();
     let mut own = [0.0; MAXP];
     own[0] = 1.0;
@@ -294,7 +339,7 @@ pub fn fit_from_start<M: VortexModel>(
     detection_centre: [f64; 2],
     settings: &FitSettings,
 ) -> Result<FitResult, FitError> {
-    let s = setup(model, window, settings)?;
+    let s = setup(model, window, &ScaledWindow::of(window), settings)?;
     if start.model.len() != model.n_params() {
         return Err(FitError::StartLength {
             model: model.kind().name(),
@@ -331,6 +376,7 @@ pub fn fit_from_start<M: VortexModel>(
 pub(crate) fn fit_model_warm(
     model: &Model,
     window: &Window,
+    scaled: &ScaledWindow,
     guess: &InitialGuess,
     previous: &FitResult,
     settings: &FitSettings,
@@ -340,7 +386,14 @@ pub(crate) fn fit_model_warm(
         circulation: CirculationGuess::Value(previous.circulation()),
         core_radius: Some(previous.core_radius()),
     };
-    fit_model_at(model, window, &warm, previous.parameters.centre, settings)
+    fit_model_at(
+        model,
+        window,
+        scaled,
+        &warm,
+        previous.parameters.centre,
+        settings,
+    )
 }
 
 /// Fit a run-time chosen [`Model`].
@@ -350,22 +403,34 @@ pub fn fit_model(
     guess: &InitialGuess,
     settings: &FitSettings,
 ) -> Result<FitResult, FitError> {
-    fit_model_at(model, window, guess, guess.centre, settings)
+    fit_model_scaled(model, window, &ScaledWindow::of(window), guess, settings)
+}
+
+/// [`fit_model`] with the window's scaled samples at hand.
+pub(crate) fn fit_model_scaled(
+    model: &Model,
+    window: &Window,
+    scaled: &ScaledWindow,
+    guess: &InitialGuess,
+    settings: &FitSettings,
+) -> Result<FitResult, FitError> {
+    fit_model_at(model, window, scaled, guess, guess.centre, settings)
 }
 
 /// [`fit_at`] for a run-time chosen [`Model`].
 fn fit_model_at(
     model: &Model,
     window: &Window,
+    scaled: &ScaledWindow,
     guess: &InitialGuess,
     start_centre: [f64; 2],
     settings: &FitSettings,
 ) -> Result<FitResult, FitError> {
     match model {
-        Model::LambOseen(m) => fit_at(m, window, guess, start_centre, settings),
-        Model::Burgers(m) => fit_at(m, window, guess, start_centre, settings),
-        Model::Rankine(m) => fit_at(m, window, guess, start_centre, settings),
-        Model::Vatistas(m) => fit_at(m, window, guess, start_centre, settings),
+        Model::LambOseen(m) => fit_at(m, window, scaled, guess, start_centre, settings),
+        Model::Burgers(m) => fit_at(m, window, scaled, guess, start_centre, settings),
+        Model::Rankine(m) => fit_at(m, window, scaled, guess, start_centre, settings),
+        Model::Vatistas(m) => fit_at(m, window, scaled, guess, start_centre, settings),
     }
 }
 

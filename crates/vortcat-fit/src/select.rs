@@ -14,7 +14,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::error::FitError;
-use crate::fit::{fit_model, fit_model_warm};
+use crate::fit::{fit_model_scaled, fit_model_warm, ScaledWindow};
 use crate::initial::InitialGuess;
 use crate::model::{Model, ModelKind};
 use crate::result::{FitResult, FitStatus};
@@ -128,6 +128,8 @@ pub fn fit_and_select(
     // Lamb–Oseen and Burgers are nested: once one of them has converged, the other starts from
     // its optimum (see `fit_model_warm`). Other pairs start independently.
     let gaussian = |k: ModelKind| matches!(k, ModelKind::LambOseen | ModelKind::Burgers);
+    // The window in solver units is the same for every model.
+    let scaled = ScaledWindow::of(window);
     let mut fits: Vec<FitResult> = Vec::with_capacity(models.len());
     for m in models {
         let previous = fits.iter().find(|f| {
@@ -140,8 +142,8 @@ pub fn fit_and_select(
                 && f.parameters.centre.iter().all(|c| c.is_finite())
         });
         let fit = match previous {
-            Some(p) => fit_model_warm(m, window, guess, p, settings)?,
-            None => fit_model(m, window, guess, settings)?,
+            Some(p) => fit_model_warm(m, window, &scaled, guess, p, settings)?,
+            None => fit_model_scaled(m, window, &scaled, guess, settings)?,
         };
         fits.push(fit);
     }

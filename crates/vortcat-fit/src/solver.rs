@@ -19,6 +19,8 @@
 // Index loops mirror the matrix formulas of the normal equations.
 #![allow(clippy::needless_range_loop)]
 
+use std::sync::Arc;
+
 use argmin::core::{
     Error as ArgminError, IterState, Problem, Solver, State, TerminationReason, TerminationStatus,
     KV,
@@ -91,10 +93,10 @@ impl Layout {
 #[derive(Debug, Clone)]
 pub(crate) struct FitProblem<M> {
     pub model: M,
-    pub x: Vec<f64>,
-    pub y: Vec<f64>,
-    pub u: Vec<f64>,
-    pub v: Vec<f64>,
+    pub x: Arc<[f64]>,
+    pub y: Arc<[f64]>,
+    pub u: Arc<[f64]>,
+    pub v: Arc<[f64]>,
     /// Quadrature offsets and weights for PIV averaging; empty for point evaluation.
     pub quad: Vec<(f64, f64, f64)>,
     pub loss: Loss,
@@ -538,10 +540,10 @@ mod tests {
         };
         let prob = FitProblem {
             model,
-            x: vec![x],
-            y: vec![y],
-            u: vec![0.3],
-            v: vec![-0.2],
+            x: vec![x].into(),
+            y: vec![y].into(),
+            u: vec![0.3].into(),
+            v: vec![-0.2].into(),
             quad: if avg {
                 PivAveraging::new(0.4).offsets(1.0)
             } else {
@@ -621,10 +623,10 @@ mod tests {
             let v: Vec<f64> = (0..n).map(|_| 0.3 * next()).collect();
             let prob = FitProblem {
                 model,
-                x,
-                y,
-                u,
-                v,
+                x: x.into(),
+                y: y.into(),
+                u: u.into(),
+                v: v.into(),
                 quad: vec![],
                 loss,
                 layout,
@@ -706,10 +708,10 @@ mod tests {
             }
             let prob = FitProblem {
                 model: model.clone(),
-                x,
-                y,
-                u,
-                v,
+                x: x.into(),
+                y: y.into(),
+                u: u.into(),
+                v: v.into(),
                 quad: vec![],
                 loss: Loss::Linear,
                 layout,
