@@ -184,34 +184,72 @@ impl AxisCoeffs {
     #[inline]
     pub(crate) fn derivative(&self, get: impl Fn(isize) -> Option<f64>) -> Option<f64> {
         let f0 = get(0)?;
-        let p1 = get(1);
-        let m1 = get(-1);
-        if let (Some(p1v), Some(m1v)) = (p1, m1) {
-            if self.scheme != GradientScheme::Central2 {
-                if let (Some(p2), Some(m2)) = (get(2), get(-2)) {
-                    let vals = [m2, m1v, f0, p1v, p2];
-                    return Some(self.interior(|k| vals[(k + 2) as usize]));
-                }
+        let samples = [get(-2), get(-1), Some(f0), get(1), get(2)];
+        let sample = |k: isize| samples[(k + 2) as usize];
+        let stencil = self.stencil(|k| sample(k).is_some())?;
+        Some(self.apply(stencil, |k| sample(k).unwrap_or(f64::NAN)))
+    }
+
+    /// The stencil [`Self::derivative`] takes at a valid point, from which neighbours exist
+    /// (`has(k)` for k = ±1, ±2: inside the grid and valid): the interior scheme where it
+    /// fits, else central second order, else one-sided (second order if `edge` asks for it and
+    /// two samples exist on that side, else first). `None`: no neighbour at all.
+    #[inline(always)]
+    pub(crate) fn stencil(&self, has: impl Fn(isize) -> bool) -> Option<Stencil> {
+        let (p1, m1) = (has(1), has(-1));
+        if p1 && m1 {
+            if self.scheme != GradientScheme::Central2 && has(2) && has(-2) {
+                return Some(Stencil::Interior);
             }
-            return Some((p1v - m1v) * self.c2);
+            return Some(Stencil::Central2);
         }
         if self.edge == EdgeOrder::Second {
-            if let Some(p1v) = p1 {
-                if let Some(p2) = get(2) {
-                    return Some(-1.5 * self.inv * f0 + 2.0 * self.inv * p1v - 0.5 * self.inv * p2);
-                }
+            if p1 && has(2) {
+                return Some(Stencil::ForwardSecond);
             }
-            if let Some(m1v) = m1 {
-                if let Some(m2) = get(-2) {
-                    return Some(0.5 * self.inv * m2 - 2.0 * self.inv * m1v + 1.5 * self.inv * f0);
-                }
+            if m1 && has(-2) {
+                return Some(Stencil::BackwardSecond);
             }
         }
-        if let Some(p1v) = p1 {
-            return Some((p1v - f0) * self.inv);
+        if p1 {
+            return Some(Stencil::Forward);
         }
-        m1.map(|m1v| (f0 - m1v) * self.inv)
+        m1.then_some(Stencil::Backward)
     }
+
+    /// The derivative by `stencil` from the samples `at(k)` it reads (all valid).
+    #[inline(always)]
+    pub(crate) fn apply(&self, stencil: Stencil, at: impl Fn(isize) -> f64) -> f64 {
+        match stencil {
+            Stencil::Interior => self.interior(at),
+            Stencil::Central2 => (at(1) - at(-1)) * self.c2,
+            Stencil::ForwardSecond => {
+                -1.5 * self.inv * at(0) + 2.0 * self.inv * at(1) - 0.5 * self.inv * at(2)
+            }
+            Stencil::BackwardSecond => {
+                0.5 * self.inv * at(-2) - 2.0 * self.inv * at(-1) + 1.5 * self.inv * at(0)
+            }
+            Stencil::Forward => (at(1) - at(0)) * self.inv,
+            Stencil::Backward => (at(0) - at(-1)) * self.inv,
+        }
+    }
+}
+
+/// The finite-difference stencil of one derivative at one point (see [`AxisCoeffs::stencil`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Stencil {
+    /// The scheme's interior stencil.
+    Interior,
+    /// `(f₁ − f₋₁)/2h`.
+    Central2,
+    /// `(−3f₀ + 4f₁ − f₂)/2h`.
+    ForwardSecond,
+    /// `(f₋₂ − 4f₋₁ + 3f₀)/2h`.
+    BackwardSecond,
+    /// `(f₁ − f₀)/h`.
+    Forward,
+    /// `(f₀ − f₋₁)/h`.
+    Backward,
 }
 
 /// Interior stencil over a contiguous run of `out.len()` points starting at flat index

@@ -110,10 +110,10 @@ impl<'a> PlaneCtx<'a> {
         if u[k].is_nan() {
             return None;
         }
-        let dudx = self.along_x(u, k, ix)?;
-        let dvdx = self.along_x(v, k, ix)?;
-        let dudy = self.along_y(u, k, iy)?;
-        let dvdy = self.along_y(v, k, iy)?;
+        let (dudx, dvdx) =
+            Self::derivative_pair_at(&self.cx, u, v, k, ix, self.nx, 1, self.margin)?;
+        let (dudy, dvdy) =
+            Self::derivative_pair_at(&self.cy, u, v, k, iy, self.ny, self.nx, self.margin)?;
         Some(Tensor2([[dudx, dudy], [dvdx, dvdy]]))
     }
 
@@ -166,6 +166,41 @@ impl<'a> PlaneCtx<'a> {
             }
         }
         c.derivative(line_get(data, k, i, n, stride))
+    }
+
+    /// [`Self::derivative_at`] of `u` and of `v` along one axis. The mask is shared (a masked
+    /// vector is NaN in every component, [`PlaneField`]), so both take the same stencil: it is
+    /// chosen once, from `u`, and applied to both (the same formulas, so the same bits as two
+    /// separate calls).
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn derivative_pair_at(
+        c: &AxisCoeffs,
+        u: &[f64],
+        v: &[f64],
+        k: usize,
+        i: usize,
+        n: usize,
+        stride: usize,
+        margin: usize,
+    ) -> Option<(f64, f64)> {
+        let at = |d: &[f64], o: isize| d[(k as isize + o * stride as isize) as usize];
+        if i >= margin && i + margin < n {
+            let du = c.interior(|o| at(u, o));
+            // Non-finite: a masked sample in the stencil.
+            if du.is_finite() {
+                return Some((du, c.interior(|o| at(v, o))));
+            }
+        }
+        let has = |o: isize| {
+            let j = i as isize + o;
+            j >= 0 && j < n as isize && !at(u, o).is_nan()
+        };
+        let stencil = c.stencil(has)?;
+        Some((
+            c.apply(stencil, |o| at(u, o)),
+            c.apply(stencil, |o| at(v, o)),
+        ))
     }
 
     /// Fills `buf` (four rows of length nx: ∂u/∂x, ∂u/∂y, ∂v/∂x, ∂v/∂y) with the tensor of row
