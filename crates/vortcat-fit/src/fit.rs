@@ -40,7 +40,6 @@ struct Setup<M> {
 /// radius, velocities over the rms velocity fluctuation) with the statistics behind the
 /// velocity scale. A function of the window alone: computed once for every model fitted to
 /// the same window ([`crate::fit_and_select`]), shared by reference counting.
-#[derive(Clone)]
 pub(crate) struct ScaledWindow {
     x: Arc<[f64]>,
     y: Arc<[f64]>,
@@ -113,6 +112,11 @@ fn setup<M: VortexModel>(
             parameters: n,
         });
     }
+    debug_assert_eq!(
+        scaled.x.len(),
+        window.len(),
+        "the scaled samples of another window"
+    );
     let len = window.radius();
     let vel = scaled.velocity;
     let scales = Scales {
