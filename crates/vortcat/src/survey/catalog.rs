@@ -95,7 +95,7 @@ pub struct Lines {
 impl Lines {
     /// The lines of `rows`.
     pub fn of<T: Serialize>(rows: &[T]) -> anyhow::Result<Self> {
-        Self::with_json(rows, &super::store::json_rows(rows)?)
+        Self::with_json(rows, &json_rows(rows)?)
     }
 
     /// The lines of `rows` whose JSON texts are at hand (`json[i]` is that of `rows[i]`, as
@@ -115,6 +115,15 @@ impl Lines {
         }
         Ok(Self { csv, jsonl })
     }
+}
+
+/// The JSON text of each row (as a JSON line of the catalog and in a snapshot's result file),
+/// serialised once.
+pub fn json_rows<T: Serialize>(rows: &[T]) -> anyhow::Result<Vec<Box<RawValue>>> {
+    Ok(rows
+        .iter()
+        .map(serde_json::value::to_raw_value)
+        .collect::<Result<_, _>>()?)
 }
 
 /// Writes `DIR/STEM.csv` (header from `columns`, written even when there are no rows) and the

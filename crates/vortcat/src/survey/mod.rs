@@ -410,7 +410,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             for part in from_workers {
                 // The catalog lines too, while the workers compute, not all at the end.
                 // Each row is serialised to JSON once, for the part and for the JSON lines.
-                let saved_lines = store::json_rows(&part.rows).and_then(|json| {
+                let saved_lines = catalog::json_rows(&part.rows).and_then(|json| {
                     store.save_with_rows(&part, &json)?;
                     Lines::with_json(&part.rows, &json)
                 });

@@ -187,7 +187,7 @@ impl Store {
     /// Stores a part atomically.
     #[cfg(test)]
     pub fn save(&self, part: &Part) -> anyhow::Result<()> {
-        self.save_with_rows(part, &json_rows(&part.rows)?)
+        self.save_with_rows(part, &super::catalog::json_rows(&part.rows)?)
     }
 
     /// Stores a part atomically whose rows are already serialised (`rows_json[i]` is the JSON
@@ -219,14 +219,6 @@ impl Store {
             .join(Self::key(&part.file, &part.source_blake3, part.index));
         write_unsynced(&path, &serde_json::to_vec(&view)?)
     }
-}
-
-/// The JSON text of each row, serialised once.
-pub fn json_rows<T: Serialize>(rows: &[T]) -> anyhow::Result<Vec<Box<RawValue>>> {
-    Ok(rows
-        .iter()
-        .map(serde_json::value::to_raw_value)
-        .collect::<Result<_, _>>()?)
 }
 
 /// [`Part`] with its rows already serialised: the same fields in the same order (a unit test
@@ -290,7 +282,10 @@ mod tests {
             });
         }
         store
-            .save_with_rows(&part, &json_rows(&part.rows).unwrap())
+            .save_with_rows(
+                &part,
+                &crate::survey::catalog::json_rows(&part.rows).unwrap(),
+            )
             .unwrap();
         let path = dir
             .path()
