@@ -104,10 +104,10 @@ fn mark_valid<T: Component>(
 ) -> Result<(), FieldError> {
     let mut infinite = vec![0usize; comps.len()];
     let invalid = match (comps, flagged) {
-        ([a, b], None) => fused2::<T, false>(a, b, &[], valid, &mut infinite),
-        ([a, b], Some(f)) => fused2::<T, true>(a, b, f, valid, &mut infinite),
-        ([a, b, c], None) => fused::<T, 3, false>([a, b, c], &[], valid, &mut infinite),
-        ([a, b, c], Some(f)) => fused::<T, 3, true>([a, b, c], f, valid, &mut infinite),
+        ([a, b], None) => fused::<T, false, false>(a, b, &mut [], &[], valid, &mut infinite),
+        ([a, b], Some(f)) => fused::<T, false, true>(a, b, &mut [], f, valid, &mut infinite),
+        ([a, b, c], None) => fused::<T, true, false>(a, b, c, &[], valid, &mut infinite),
+        ([a, b, c], Some(f)) => fused::<T, true, true>(a, b, c, f, valid, &mut infinite),
         (comps, flagged) => {
             for (c, count) in comps.iter().zip(infinite.iter_mut()) {
                 for (ok, &x) in valid.iter_mut().zip(c.iter()) {
@@ -142,62 +142,45 @@ fn mark_valid<T: Component>(
     Ok(())
 }
 
-/// [`fused`] for two components (planes), written over two named slices: indexing the array
-/// of slices kept that loop scalar, with a bounds check per component and point.
-fn fused2<T: Component, const FLAGGED: bool>(
+/// The pass of [`mark_valid`] for two components, or three with `THREE` (`c` is then the
+/// third; it is ignored, and may be empty, without): validity, NaN written by a select where
+/// invalid, infinite values counted per component (`FLAGGED`: `flagged` holds the rejected
+/// vectors); returns the number of invalid vectors. Written over named slices of equal length
+/// so that the loop vectorises: indexing an array of slices point by point kept it scalar,
+/// with a bounds check per component and point.
+fn fused<T: Component, const THREE: bool, const FLAGGED: bool>(
     a: &mut [T],
     b: &mut [T],
+    c: &mut [T],
     flagged: &[bool],
     valid: &mut [bool],
     infinite: &mut [usize],
 ) -> usize {
     let len = valid.len();
     let (a, b) = (&mut a[..len], &mut b[..len]);
+    let c = if THREE { &mut c[..len] } else { c };
     let flagged = if FLAGGED { &flagged[..len] } else { flagged };
-    let (mut inf_a, mut inf_b, mut invalid) = (0usize, 0usize, 0usize);
+    let (mut inf_a, mut inf_b, mut inf_c, mut invalid) = (0usize, 0usize, 0usize, 0usize);
     for i in 0..len {
         let (x, y) = (a[i], b[i]);
+        let z = if THREE { c[i] } else { x };
         inf_a += usize::from(x.is_infinite());
         inf_b += usize::from(y.is_infinite());
-        let bad = x.is_nan() | y.is_nan() | (FLAGGED && flagged[i]);
+        inf_c += usize::from(THREE && z.is_infinite());
+        let bad = x.is_nan() | y.is_nan() | (THREE && z.is_nan()) | (FLAGGED && flagged[i]);
         valid[i] = !bad;
         invalid += usize::from(bad);
         a[i] = if bad { T::NAN } else { x };
         b[i] = if bad { T::NAN } else { y };
+        if THREE {
+            c[i] = if bad { T::NAN } else { z };
+        }
     }
     infinite[0] = inf_a;
     infinite[1] = inf_b;
-    invalid
-}
-
-/// The pass of [`mark_valid`] for `N` components (`FLAGGED`: `flagged` holds the rejected
-/// vectors): validity, NaN written by a select where invalid, infinite values counted per
-/// component; returns the number of invalid vectors.
-fn fused<T: Component, const N: usize, const FLAGGED: bool>(
-    comps: [&mut [T]; N],
-    flagged: &[bool],
-    valid: &mut [bool],
-    infinite: &mut [usize],
-) -> usize {
-    let len = valid.len();
-    let mut comps = comps.map(|c| &mut c[..len]);
-    let flagged = if FLAGGED { &flagged[..len] } else { flagged };
-    let mut counts = [0usize; N];
-    let mut invalid = 0usize;
-    for i in 0..len {
-        let mut nan = false;
-        for (c, count) in comps.iter().zip(counts.iter_mut()) {
-            nan |= c[i].is_nan();
-            *count += usize::from(c[i].is_infinite());
-        }
-        let good = !(nan || (FLAGGED && flagged[i]));
-        valid[i] = good;
-        invalid += usize::from(!good);
-        for c in comps.iter_mut() {
-            c[i] = if good { c[i] } else { T::NAN };
-        }
+    if THREE {
+        infinite[2] = inf_c;
     }
-    infinite[..N].copy_from_slice(&counts);
     invalid
 }
 
