@@ -638,7 +638,6 @@ pub(crate) struct RunMeta {
     pub reports_inputs: bool,
 }
 
-/// This process's peak resident memory (Linux `VmHWM`), in MiB; `None` elsewhere.
 /// The failure part of a run's summary line, e.g. `2 failed` or `0 failed, 1 input file
 /// unreadable`. An input that could not even be opened contributes no snapshot, so it is not
 /// among the failed snapshots; without its own count, "0 failed" would read as a clean run
@@ -651,6 +650,7 @@ pub(crate) fn failure_counts(failed_snapshots: usize, unreadable_inputs: usize) 
     }
 }
 
+/// This process's peak resident memory (Linux `VmHWM`), in MiB; `None` elsewhere.
 fn peak_rss_mib() -> Option<f64> {
     let status = std::fs::read_to_string("/proc/self/status").ok()?;
     let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
