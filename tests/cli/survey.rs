@@ -167,6 +167,19 @@ fn kill_9_then_resume(format: &str) {
         std::fs::read(out.join("catalog.csv")).unwrap(),
         std::fs::read(reference.join("catalog.csv")).unwrap()
     );
+    // The killed run's catalog was being streamed into temporary files: the resumed run
+    // removes them (and any part it was writing).
+    assert_eq!(temporaries(&out), Vec::<String>::new());
+    assert_eq!(temporaries(&out.join("parts")), Vec::<String>::new());
+}
+
+/// Names of the hidden temporary files (`.NAME.tmp-PID`) in `dir`.
+fn temporaries(dir: &Path) -> Vec<String> {
+    std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with('.') && n.contains(".tmp-"))
+        .collect()
 }
 
 #[test]
@@ -316,6 +329,15 @@ fn ctrl_c_stops_cleanly_and_leaves_a_resumable_state() {
         assert!(
             !out.join("run.json").exists(),
             "an interrupted survey has no final manifest"
+        );
+        assert!(
+            !out.join("catalog.csv").exists(),
+            "an interrupted survey has no catalog"
+        );
+        assert_eq!(
+            temporaries(&out),
+            Vec::<String>::new(),
+            "an interrupted survey removes the catalog it was streaming"
         );
     } else {
         // The survey finished before the signal arrived: nothing to interrupt on this machine.

@@ -310,7 +310,6 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
     let input_failures = records.iter().filter(|r| r.error.is_some()).count();
     let assembled = Assembled {
         rows,
-        lines: None,
         stations,
         tubes,
         statuses,
@@ -331,7 +330,7 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
         ),
         reports_inputs: true,
     };
-    write_outputs(&out, &assembled, &meta)?;
+    write_outputs(&out, &assembled, None, &meta)?;
     println!(
         "merged {count} shards: {} snapshots ({}), {} vortices -> {}",
         assembled.statuses.len(),

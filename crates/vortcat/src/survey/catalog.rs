@@ -1,7 +1,11 @@
 //! The per-vortex catalog: one row per fitted vortex, written as CSV and as JSON lines, with
 //! a units table beside them. Columns are described in `docs/catalog.md`.
 
-use std::path::Path;
+use std::fs::File;
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use anyhow::Context;
 
 use serde::Serialize;
 use serde_json::value::RawValue;
@@ -144,27 +148,117 @@ pub fn write_lines(
     columns: &[(&str, &str, &str)],
     groups: &[Lines],
 ) -> anyhow::Result<()> {
-    let mut w = csv::WriterBuilder::new()
-        .has_headers(false)
-        .from_writer(Vec::new());
-    w.write_record(columns.iter().map(|c| c.0))?;
-    let header = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
-    use crate::survey::store::write_atomic_pieces;
-    let csv = std::iter::once(header.as_slice()).chain(groups.iter().map(|g| g.csv.as_slice()));
-    // The two files are written (and synced) at the same time: this is the serial tail of a
-    // survey, and each write waits mostly on the kernel's copy and the fsync.
-    let (csv_written, jsonl_written) = std::thread::scope(|scope| {
-        let jsonl = scope.spawn(|| {
-            write_atomic_pieces(
-                &dir.join(format!("{stem}.jsonl")),
-                groups.iter().map(|g| g.jsonl.as_slice()),
-            )
+    let mut stream = Stream::create(dir, stem, columns)?;
+    for group in groups {
+        stream.push(group)?;
+    }
+    stream.finish()
+}
+
+/// A catalog table written as it is assembled: the header at once, then each snapshot's
+/// [`Lines`] in catalog order, into temporary files beside `DIR/STEM.csv` and
+/// `DIR/STEM.jsonl`; [`Stream::finish`] syncs and renames them. The bytes are those of
+/// [`write_lines`] with the same groups. A survey streams its catalog while it computes, so
+/// that no serialised row is held to the end and the end of the run has no copy of the whole
+/// table to make. A stream dropped unfinished (an interrupted or failed run) removes its
+/// temporary files; the finished table of an earlier run, if any, is left as it was.
+pub struct Stream {
+    csv: Unfinished,
+    jsonl: Unfinished,
+}
+
+/// A file being written through its temporary file.
+struct Unfinished {
+    path: PathBuf,
+    tmp: PathBuf,
+    /// `None` once closed (renamed into place, or failed and removed).
+    writer: Option<BufWriter<File>>,
+}
+
+impl Unfinished {
+    fn create(path: PathBuf) -> anyhow::Result<Self> {
+        let tmp = crate::survey::store::temporary_beside(&path);
+        let file =
+            File::create(&tmp).with_context(|| format!("{}: cannot write", tmp.display()))?;
+        Ok(Self {
+            path,
+            tmp,
+            writer: Some(BufWriter::with_capacity(1 << 20, file)),
+        })
+    }
+
+    fn write(&mut self, bytes: &[u8]) -> anyhow::Result<()> {
+        let w = self
+            .writer
+            .as_mut()
+            .expect("written only before it is closed");
+        w.write_all(bytes)
+            .with_context(|| format!("{}: cannot write", self.tmp.display()))
+    }
+
+    /// Flushes to disk and renames into place; on failure the temporary file is removed.
+    fn close(&mut self) -> anyhow::Result<()> {
+        let w = self.writer.take().expect("closed once");
+        let tmp = &self.tmp;
+        let closed = w
+            .into_inner()
+            .map_err(|e| anyhow::anyhow!("{}: cannot write: {}", tmp.display(), e.error()))
+            .and_then(|file| {
+                file.sync_all()
+                    .with_context(|| format!("{}: cannot flush to disk", tmp.display()))
+            })
+            .and_then(|()| {
+                std::fs::rename(tmp, &self.path)
+                    .with_context(|| format!("{}: cannot write", self.path.display()))
+            });
+        if closed.is_err() {
+            let _ = std::fs::remove_file(tmp);
+        }
+        closed
+    }
+}
+
+impl Drop for Unfinished {
+    fn drop(&mut self) {
+        if self.writer.take().is_some() {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+impl Stream {
+    /// Starts `DIR/STEM.csv` (header from `columns`) and `DIR/STEM.jsonl`.
+    pub fn create(dir: &Path, stem: &str, columns: &[(&str, &str, &str)]) -> anyhow::Result<Self> {
+        let mut stream = Self {
+            csv: Unfinished::create(dir.join(format!("{stem}.csv")))?,
+            jsonl: Unfinished::create(dir.join(format!("{stem}.jsonl")))?,
+        };
+        let mut w = csv::WriterBuilder::new()
+            .has_headers(false)
+            .from_writer(Vec::new());
+        w.write_record(columns.iter().map(|c| c.0))?;
+        let header = w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+        stream.csv.write(&header)?;
+        Ok(stream)
+    }
+
+    /// Appends the next group of rows.
+    pub fn push(&mut self, lines: &Lines) -> anyhow::Result<()> {
+        self.csv.write(&lines.csv)?;
+        self.jsonl.write(&lines.jsonl)
+    }
+
+    /// Flushes both files to disk and renames them into place.
+    pub fn finish(mut self) -> anyhow::Result<()> {
+        // The two fsyncs wait on the disk, not on this process: they run at the same time.
+        let (csv, jsonl) = (&mut self.csv, &mut self.jsonl);
+        let (csv_closed, jsonl_closed) = std::thread::scope(|scope| {
+            let jsonl_closed = scope.spawn(|| jsonl.close());
+            (csv.close(), jsonl_closed.join())
         });
-        let csv_written = write_atomic_pieces(&dir.join(format!("{stem}.csv")), csv);
-        (csv_written, jsonl.join())
-    });
-    csv_written?;
-    jsonl_written.map_err(|_| anyhow::anyhow!("the thread writing {stem}.jsonl panicked"))?
+        csv_closed?;
+        jsonl_closed.map_err(|_| anyhow::anyhow!("the thread closing a catalog file panicked"))?
+    }
 }
 
 /// Writes a units table (`column, unit, description`) for `columns`, resolving each unit kind

@@ -284,6 +284,9 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         .with_context(|| format!("{}: cannot create the output folder", out.display()))?;
     check_previous(&out, &config_sha, args.force)?;
     let store = Store::open(&out)?;
+    // A run killed part-way leaves its catalog and part temporaries behind.
+    store::remove_stale_temporaries(&out);
+    store::remove_stale_temporaries(&out.join("parts"));
     store::write_atomic(&out.join("config.toml"), config_toml.as_bytes())?;
     // run.json marks a finished run; until this run finishes, the folder is partial.
     let _ = std::fs::remove_file(out.join("run.json"));
@@ -355,14 +358,23 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             }
         })
     });
+    // Snapshots finished by an earlier run with the same input and config are not computed
+    // again; their results (and catalog lines) are read here, in parallel.
+    let earlier: Vec<Option<(Part, Lines)>> = pool.install(|| {
+        jobs.par_iter()
+            .map(|j| {
+                let r = &records[j.source];
+                let part = store.done(&r.path, &r.blake3, j.index, &config_sha)?;
+                Some(Lines::of(&part.rows).map(|lines| (part, lines)))
+            })
+            .map(Option::transpose)
+            .collect::<anyhow::Result<_>>()
+    })?;
     let pending: Vec<&Job> = jobs
         .iter()
-        .filter(|j| {
-            let r = &records[j.source];
-            store
-                .done(&r.path, &r.blake3, j.index, &config_sha)
-                .is_none()
-        })
+        .zip(&earlier)
+        .filter(|(_, e)| e.is_none())
+        .map(|(j, _)| j)
         .collect();
     let skipped = jobs.len() - pending.len();
     if skipped > 0 {
@@ -399,16 +411,23 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let late_hashes: Mutex<Vec<(usize, Result<String, String>)>> = Mutex::new(Vec::new());
     // Results are saved by one writer thread, so that a slow file system (a network share)
     // never idles a worker. A result still queued when the process dies is recomputed on
-    // resume, like one in progress. The writer keeps what it saved, so that the catalog is
-    // assembled without reading this run's results back (only earlier runs' are loaded).
+    // resume, like one in progress. The writer also appends each snapshot's rows to the
+    // catalog as soon as the snapshots before it are in (results arrive in any order), and
+    // keeps the results for the manifest without reading them back.
+    let position: HashMap<(&str, usize), usize> = jobs
+        .iter()
+        .enumerate()
+        .map(|(at, j)| ((records[j.source].path.as_str(), j.index), at))
+        .collect();
+    let stream = catalog::Stream::create(&out, "catalog", catalog::COLUMNS)?;
     let (to_writer, from_workers) = std::sync::mpsc::channel::<Part>();
-    let mut computed: HashMap<(String, usize), (Part, Lines)> = std::thread::scope(|scope| {
-        let store = &store;
-        let save_errors = &save_errors;
+    let (in_order, stream) = std::thread::scope(|scope| {
+        let (store, save_errors, position, config_sha) =
+            (&store, &save_errors, &position, &config_sha);
+        let (records, jobs, cancel) = (&records, &jobs, &*cancel);
         let writer = scope.spawn(move || {
-            let mut saved = HashMap::new();
+            let mut ordered = Ordered::new(earlier, stream);
             for part in from_workers {
-                // The catalog lines too, while the workers compute, not all at the end.
                 // Each row is serialised to JSON once, for the part and for the JSON lines.
                 let saved_lines = catalog::json_rows(&part.rows).and_then(|json| {
                     store.save_with_rows(&part, &json)?;
@@ -416,55 +435,88 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
                 });
                 match saved_lines {
                     Ok(lines) => {
-                        saved.insert((part.file.clone(), part.index), (part, lines));
+                        let at = position[&(part.file.as_str(), part.index)];
+                        ordered.arrive(at, part, lines);
                     }
                     Err(e) => save_errors.lock().expect("lock").push(crate::one_line(&e)),
                 }
             }
-            saved
+            if let Some(e) = &ordered.error {
+                save_errors.lock().expect("lock").push(e.clone());
+            }
+            // Every snapshot has a result unless the run was interrupted.
+            if !cancel.load(Ordering::SeqCst) {
+                for (at, job) in jobs.iter().enumerate().skip(ordered.written.len()) {
+                    if ordered.waiting[at].is_none() {
+                        let r = &records[job.source];
+                        let part =
+                            failed_part(r, job.index, config_sha, "no result was written".into());
+                        match Lines::of(&part.rows) {
+                            Ok(lines) => ordered.arrive(at, part, lines),
+                            Err(e) => save_errors.lock().expect("lock").push(crate::one_line(&e)),
+                        }
+                    }
+                }
+            }
+            (ordered.written, ordered.stream)
         });
         let late_hashes = &late_hashes;
-        pool.install(|| {
-            runs.par_iter().for_each_with(to_writer, |to_writer, run| {
-                let source = run[0].source;
-                let mut record = std::borrow::Cow::Borrowed(&records[source]);
-                let opened = open_source(&records[source].path, deferred[source], &plan.input);
-                if let Some(hashed) = opened.hashed {
-                    if let Ok(hash) = &hashed {
-                        record.to_mut().blake3.clone_from(hash);
-                    }
-                    late_hashes.lock().expect("lock").push((source, hashed));
+        // Workers take the runs in order from one counter, so that results arrive nearly in
+        // catalog order and the writer appends them as they come. (A parallel iterator over
+        // the runs would split the list in halves, and the second half's results would wait
+        // in memory until the first half was done.)
+        let next_run = AtomicUsize::new(0);
+        let process_run = |run: &[&Job], to_writer: &std::sync::mpsc::Sender<Part>| {
+            let source = run[0].source;
+            let mut record = std::borrow::Cow::Borrowed(&records[source]);
+            let opened = open_source(&records[source].path, deferred[source], &plan.input);
+            if let Some(hashed) = opened.hashed {
+                if let Ok(hash) = &hashed {
+                    record.to_mut().blake3.clone_from(hash);
                 }
-                let record = record.as_ref();
-                let mut reader = match opened.reader {
-                    Ok(r) => Some(r),
-                    Err(e) => {
-                        for job in run {
-                            let part = failed_part(record, job.index, &config_sha, e.clone());
-                            failures.fetch_add(1, Ordering::Relaxed);
-                            // The writer only stops after every sender is gone.
-                            let _ = to_writer.send(part);
-                            progress.tick(failures.load(Ordering::Relaxed));
-                        }
-                        None
-                    }
-                };
-                let Some(reader) = reader.as_mut() else {
-                    return;
-                };
-                for job in run {
-                    if cancel.load(Ordering::SeqCst) {
-                        return;
-                    }
-                    let part = process_one(reader.as_mut(), record, job.index, &config_sha, &plan);
-                    if part.status != "done" {
+                late_hashes.lock().expect("lock").push((source, hashed));
+            }
+            let record = record.as_ref();
+            let mut reader = match opened.reader {
+                Ok(r) => r,
+                Err(e) => {
+                    for job in run {
+                        let part = failed_part(record, job.index, config_sha, e.clone());
                         failures.fetch_add(1, Ordering::Relaxed);
+                        // The writer only stops after every sender is gone.
+                        let _ = to_writer.send(part);
+                        progress.tick(failures.load(Ordering::Relaxed));
                     }
-                    let _ = to_writer.send(part);
-                    progress.tick(failures.load(Ordering::Relaxed));
+                    return;
                 }
-            });
+            };
+            for job in run {
+                if cancel.load(Ordering::SeqCst) {
+                    return;
+                }
+                let part = process_one(reader.as_mut(), record, job.index, config_sha, &plan);
+                if part.status != "done" {
+                    failures.fetch_add(1, Ordering::Relaxed);
+                }
+                let _ = to_writer.send(part);
+                progress.tick(failures.load(Ordering::Relaxed));
+            }
+        };
+        pool.scope(|scope| {
+            for _ in 0..threads {
+                let to_writer = to_writer.clone();
+                let (next_run, runs, process_run) = (&next_run, &runs, &process_run);
+                scope.spawn(move |_| {
+                    while let Some(run) = runs.get(next_run.fetch_add(1, Ordering::Relaxed)) {
+                        if cancel.load(Ordering::SeqCst) {
+                            break;
+                        }
+                        process_run(run, &to_writer);
+                    }
+                });
+            }
         });
+        drop(to_writer);
         writer.join().expect("the writer thread does not panic")
     });
     progress.finish();
@@ -481,39 +533,19 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         eprintln!("vortcat: stopped; {} holds the finished snapshots. Run the same command again to resume.", out.display());
         return Ok(ExitCode::from(EXIT_INTERRUPTED));
     }
+    anyhow::ensure!(
+        in_order.len() == jobs.len(),
+        "internal: {} of {} snapshots reached the catalog",
+        in_order.len(),
+        jobs.len()
+    );
 
     // Assemble, in the stable order of inputs and indices.
     let mut rows: Vec<CatalogRow> = Vec::new();
     let mut stations = Vec::new();
     let mut tubes = Vec::new();
     let mut statuses = Vec::new();
-    // This run's parts are at hand; earlier runs' are read and parsed in parallel. Either way
-    // the bytes of the catalog are the same (floats survive the JSON round trip exactly), and
-    // collect keeps the job order.
-    let mut at_hand: Vec<Option<(Part, Lines)>> = jobs
-        .iter()
-        .map(|job| computed.remove(&(records[job.source].path.clone(), job.index)))
-        .collect();
-    let parts: Vec<(Part, Lines)> = pool.install(|| {
-        jobs.par_iter()
-            .zip(at_hand.par_iter_mut())
-            .map(|(job, part)| match part.take() {
-                Some(ready) => Ok(ready),
-                None => {
-                    let r = &records[job.source];
-                    let part = store
-                        .load(&r.path, &r.blake3, job.index)
-                        .unwrap_or_else(|| {
-                            failed_part(r, job.index, &config_sha, "no result was written".into())
-                        });
-                    Lines::of(&part.rows).map(|lines| (part, lines))
-                }
-            })
-            .collect::<anyhow::Result<_>>()
-    })?;
-    let mut lines = Vec::with_capacity(parts.len());
-    for (part, part_lines) in parts {
-        lines.push(part_lines);
+    for part in in_order {
         let flagged = part.rows.iter().filter(|r| !r.flags.is_empty()).count();
         statuses.push(SnapshotStatus {
             snapshot: part.snapshot.clone(),
@@ -539,7 +571,6 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     let reports_inputs = shard.is_none_or(|s| s.index == 0);
     let assembled = Assembled {
         rows,
-        lines: Some(lines),
         stations,
         tubes,
         statuses,
@@ -557,7 +588,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         snapshot_set,
         reports_inputs,
     };
-    write_outputs(&out, &assembled, &meta)?;
+    write_outputs(&out, &assembled, stream, &meta)?;
     let Assembled {
         rows,
         tubes,
@@ -613,8 +644,6 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
 /// Everything a survey (or a merge of shards) writes.
 pub(crate) struct Assembled {
     pub rows: Vec<CatalogRow>,
-    /// The catalog lines of `rows`, when serialised ahead (per snapshot, in the same order).
-    pub lines: Option<Vec<Lines>>,
     /// Tube stations and summaries (volume surveys), in snapshot, tube, station order.
     pub stations: Vec<volume::StationRow>,
     pub tubes: Vec<volume::TubeRow>,
@@ -670,11 +699,18 @@ fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
 }
 
 /// Writes catalog.csv, catalog.jsonl, units.csv, summary.json and run.json; for volume
-/// surveys also stations.csv, tubes.csv, their JSON lines and units tables.
-pub(crate) fn write_outputs(out: &Path, a: &Assembled, meta: &RunMeta) -> anyhow::Result<()> {
+/// surveys also stations.csv, tubes.csv, their JSON lines and units tables. A catalog
+/// `streamed` while the rows were computed (all of `a.rows`, in order) is finished here, in
+/// the same place of the sequence (run.json, which marks a finished run, comes last).
+pub(crate) fn write_outputs(
+    out: &Path,
+    a: &Assembled,
+    streamed: Option<catalog::Stream>,
+    meta: &RunMeta,
+) -> anyhow::Result<()> {
     let rows = &a.rows;
-    match &a.lines {
-        Some(lines) => catalog::write_lines(out, "catalog", catalog::COLUMNS, lines)?,
+    match streamed {
+        Some(stream) => stream.finish()?,
         None => catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?,
     }
     if a.config.input.geometry == vortcat_field::Geometry::Volume {
@@ -867,6 +903,54 @@ fn reads_from_bytes(path: &Path, spec: &vortcat_field::InputSpec) -> bool {
         )
 }
 
+/// The results of a survey in catalog order. Each result is appended to the catalog stream
+/// once all results before it are in; results that arrive ahead of their turn wait here.
+struct Ordered {
+    /// Results not yet appended, by position in the job list.
+    waiting: Vec<Option<(Part, Lines)>>,
+    /// Results appended, in order.
+    written: Vec<Part>,
+    stream: Option<catalog::Stream>,
+    /// The first error writing the stream; from then on nothing more is appended, and the
+    /// unfinished stream has removed its temporary files.
+    error: Option<String>,
+}
+
+impl Ordered {
+    /// Starts with the results of earlier runs (`None` where a snapshot is still to compute).
+    fn new(earlier: Vec<Option<(Part, Lines)>>, stream: catalog::Stream) -> Self {
+        let mut ordered = Self {
+            written: Vec::with_capacity(earlier.len()),
+            waiting: earlier,
+            stream: Some(stream),
+            error: None,
+        };
+        ordered.advance();
+        ordered
+    }
+
+    /// Takes the result at position `at` and appends whatever is now in turn.
+    fn arrive(&mut self, at: usize, part: Part, lines: Lines) {
+        self.waiting[at] = Some((part, lines));
+        self.advance();
+    }
+
+    fn advance(&mut self) {
+        while let Some(slot) = self.waiting.get_mut(self.written.len()) {
+            let Some((part, lines)) = slot.take() else {
+                break;
+            };
+            if let Some(stream) = &mut self.stream {
+                if let Err(e) = stream.push(&lines) {
+                    self.error = Some(crate::one_line(&e));
+                    self.stream = None;
+                }
+            }
+            self.written.push(part);
+        }
+    }
+}
+
 fn failed_part(record: &InputRecord, index: usize, config_sha: &str, error: String) -> Part {
     Part {
         snapshot: format!("{}#{index}", record.path),
@@ -971,7 +1055,101 @@ fn group_runs<'a>(pending: &[&'a Job], threads: usize) -> Vec<Vec<&'a Job>> {
 
 #[cfg(test)]
 mod tests {
-    use super::failure_counts;
+    use super::*;
+
+    /// A part of `rows` rows for snapshot `n`, with values that need CSV quoting.
+    fn part_with_rows(n: usize, rows: usize) -> Part {
+        let file = format!("dir/a, \"{n}\" é.npz");
+        Part {
+            snapshot: format!("{file}#0"),
+            file: file.clone(),
+            index: 0,
+            source_blake3: "abc".into(),
+            config_sha256: "cfg".into(),
+            status: "done".into(),
+            error: None,
+            candidates: rows,
+            rows: (1..=rows)
+                .map(|vortex| CatalogRow {
+                    snapshot: format!("{file}#0"),
+                    vortex,
+                    file: file.clone(),
+                    circulation: Some(n as f64 / 3.0 + vortex as f64),
+                    flags: if vortex % 2 == 0 {
+                        "edge;noisy".into()
+                    } else {
+                        String::new()
+                    },
+                    ..CatalogRow::default()
+                })
+                .collect(),
+            stations: vec![],
+            tubes: vec![],
+            timing: Timing::default(),
+        }
+    }
+
+    #[test]
+    fn results_arriving_in_any_order_stream_the_catalog_of_all_rows() {
+        // Earlier results at 0 and 3; the rest arrive out of order, one of them empty. The
+        // streamed files must be byte for byte the table of all rows written at once.
+        let parts: Vec<Part> = [2, 0, 3, 1, 4, 2]
+            .iter()
+            .enumerate()
+            .map(|(n, &rows)| part_with_rows(n, rows))
+            .collect();
+        let lines = |p: &Part| Lines::of(&p.rows).unwrap();
+        let earlier = parts
+            .iter()
+            .enumerate()
+            .map(|(at, p)| [0, 3].contains(&at).then(|| (p.clone(), lines(p))))
+            .collect();
+        let streamed = tempfile::tempdir().unwrap();
+        let stream = catalog::Stream::create(streamed.path(), "catalog", catalog::COLUMNS).unwrap();
+        let mut ordered = Ordered::new(earlier, stream);
+        assert_eq!(ordered.written.len(), 1, "only the first result is in turn");
+        for at in [4, 2, 5, 1] {
+            ordered.arrive(at, parts[at].clone(), lines(&parts[at]));
+            let expected = if at == 1 { 6 } else { 1 };
+            assert_eq!(ordered.written.len(), expected, "after {at}");
+        }
+        assert!(ordered.error.is_none());
+        let order: Vec<&str> = ordered.written.iter().map(|p| p.file.as_str()).collect();
+        assert_eq!(
+            order,
+            parts.iter().map(|p| p.file.as_str()).collect::<Vec<_>>()
+        );
+        ordered.stream.take().unwrap().finish().unwrap();
+
+        let whole = tempfile::tempdir().unwrap();
+        let rows: Vec<CatalogRow> = parts.iter().flat_map(|p| p.rows.clone()).collect();
+        catalog::write_table(whole.path(), "catalog", catalog::COLUMNS, &rows).unwrap();
+        for name in ["catalog.csv", "catalog.jsonl"] {
+            let a = std::fs::read(streamed.path().join(name)).unwrap();
+            assert_eq!(a, std::fs::read(whole.path().join(name)).unwrap(), "{name}");
+        }
+        assert_eq!(
+            std::fs::read_dir(streamed.path()).unwrap().count(),
+            2,
+            "no temporaries"
+        );
+    }
+
+    #[test]
+    fn an_unfinished_stream_leaves_nothing_behind() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut stream = catalog::Stream::create(dir.path(), "catalog", catalog::COLUMNS).unwrap();
+        stream
+            .push(&Lines::of(&part_with_rows(0, 3).rows).unwrap())
+            .unwrap();
+        assert_eq!(
+            std::fs::read_dir(dir.path()).unwrap().count(),
+            2,
+            "two temporaries"
+        );
+        drop(stream);
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
+    }
 
     #[test]
     fn unreadable_inputs_are_counted_apart_from_failed_snapshots() {

@@ -32,41 +32,55 @@ fn write_unsynced(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
     write_via_rename(path, bytes, false)
 }
 
-/// [`write_atomic`] of the concatenation of `pieces`, streamed to the file (a large table
-/// assembled from per-snapshot pieces is not copied into one buffer first).
-pub fn write_atomic_pieces<'a>(
-    path: &Path,
-    pieces: impl IntoIterator<Item = &'a [u8]>,
-) -> anyhow::Result<()> {
-    let tmp = temporary_beside(path);
-    {
-        let file =
-            fs::File::create(&tmp).with_context(|| format!("{}: cannot write", tmp.display()))?;
-        let mut w = std::io::BufWriter::with_capacity(1 << 20, file);
-        for piece in pieces {
-            w.write_all(piece)
-                .with_context(|| format!("{}: cannot write", tmp.display()))?;
-        }
-        let file = w
-            .into_inner()
-            .map_err(|e| anyhow::anyhow!("{}: cannot write: {}", tmp.display(), e.error()))?;
-        file.sync_all()
-            .with_context(|| format!("{}: cannot flush to disk", tmp.display()))?;
-    }
-    fs::rename(&tmp, path).with_context(|| format!("{}: cannot write", path.display()))?;
-    Ok(())
-}
-
 /// The temporary file a result is written to before the rename: hidden, in the same folder
 /// (a rename is atomic only within one file system) and named after the process, so that two
 /// runs on one folder cannot write into each other's temporary files.
-fn temporary_beside(path: &Path) -> PathBuf {
+pub(crate) fn temporary_beside(path: &Path) -> PathBuf {
     let dir = path.parent().unwrap_or(Path::new("."));
     let name = path
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
     dir.join(format!(".{name}.tmp-{}", std::process::id()))
+}
+
+/// Removes the temporary files in `dir` left by runs that were killed before they could
+/// rename them (a survey streams its catalog into temporary files for the whole run). Only
+/// files of processes that no longer exist are removed, so that two runs on one folder keep
+/// each other's; where liveness cannot be checked (no `/proc`), nothing is removed. Returns
+/// how many files were removed.
+pub fn remove_stale_temporaries(dir: &Path) -> usize {
+    let proc = Path::new("/proc");
+    if !proc.join("self").exists() {
+        return 0;
+    }
+    let Ok(entries) = fs::read_dir(dir) else {
+        return 0;
+    };
+    let own = std::process::id();
+    let mut removed = 0;
+    for entry in entries.filter_map(Result::ok) {
+        let name = entry.file_name();
+        let Some(pid) = name.to_str().and_then(temporary_owner) else {
+            continue;
+        };
+        if pid != own
+            && !proc.join(pid.to_string()).exists()
+            && fs::remove_file(entry.path()).is_ok()
+        {
+            removed += 1;
+        }
+    }
+    removed
+}
+
+/// The process id in a name made by [`temporary_beside`] (`.NAME.tmp-PID`).
+fn temporary_owner(name: &str) -> Option<u32> {
+    let (stem, pid) = name.strip_prefix('.')?.rsplit_once(".tmp-")?;
+    if stem.is_empty() || pid.is_empty() || !pid.bytes().all(|b| b.is_ascii_digit()) {
+        return None;
+    }
+    pid.parse().ok()
 }
 
 fn write_via_rename(path: &Path, bytes: &[u8], sync: bool) -> anyhow::Result<()> {
@@ -178,7 +192,8 @@ impl Store {
             .then_some(part)
     }
 
-    /// The stored part of a snapshot, whatever its status.
+    /// The stored part of a snapshot, whatever its status (the tests read parts back).
+    #[cfg(test)]
     pub fn load(&self, file: &str, source_blake3: &str, index: usize) -> Option<Part> {
         let path = self.dir.join(Self::key(file, source_blake3, index));
         serde_json::from_str(&fs::read_to_string(path).ok()?).ok()
@@ -295,6 +310,32 @@ mod tests {
         assert_eq!(store.load(&part.file, "abc", 3).unwrap().rows, part.rows);
         // A mismatched list is refused rather than written.
         assert!(store.save_with_rows(&part, &[]).is_err());
+    }
+
+    #[test]
+    fn only_temporaries_of_dead_processes_are_removed() {
+        let dir = tempfile::tempdir().unwrap();
+        // Linux's largest process id is 2^22 (kernel.pid_max), so this one cannot be running.
+        let dead = dir.path().join(".catalog.csv.tmp-99999999");
+        let live = temporary_beside(&dir.path().join("catalog.jsonl"));
+        let unrelated = [".tmp-12", "catalog.tmp-12", ".a.tmp-12x", ".notes"];
+        fs::write(&dead, b"x").unwrap();
+        fs::write(&live, b"x").unwrap();
+        for name in unrelated {
+            fs::write(dir.path().join(name), b"x").unwrap();
+        }
+        let removed = remove_stale_temporaries(dir.path());
+        if Path::new("/proc/self").exists() {
+            assert_eq!(removed, 1);
+            assert!(!dead.exists());
+        } else {
+            assert_eq!(removed, 0);
+        }
+        assert!(live.exists(), "this process's own temporary is kept");
+        for name in unrelated {
+            assert!(dir.path().join(name).exists(), "{name}");
+        }
+        assert_eq!(temporary_owner(".p.json.tmp-42"), Some(42));
     }
 
     #[test]
