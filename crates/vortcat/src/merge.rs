@@ -15,7 +15,9 @@ use serde::Deserialize;
 use crate::config::Config;
 use crate::survey::catalog::CatalogRow;
 use crate::survey::shard::Shard;
-use crate::survey::{write_outputs, Assembled, InputRecord, RunMeta, SnapshotStatus, EXIT_PARTIAL};
+use crate::survey::{
+    write_outputs, Assembled, Catalog, InputRecord, RunMeta, SnapshotStatus, EXIT_PARTIAL,
+};
 
 /// Arguments of `vortcat merge`.
 #[derive(Debug, Args)]
@@ -309,7 +311,6 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
     let failed = statuses.iter().filter(|s| s.status != "done").count();
     let input_failures = records.iter().filter(|r| r.error.is_some()).count();
     let assembled = Assembled {
-        rows,
         stations,
         tubes,
         statuses,
@@ -330,12 +331,12 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
         ),
         reports_inputs: true,
     };
-    write_outputs(&out, &assembled, None, &meta)?;
+    write_outputs(&out, &assembled, Catalog::Rows(&rows), &meta)?;
     println!(
         "merged {count} shards: {} snapshots ({}), {} vortices -> {}",
         assembled.statuses.len(),
         crate::survey::failure_counts(failed, input_failures),
-        assembled.rows.len(),
+        rows.len(),
         out.join("catalog.csv").display()
     );
     Ok(if failed > 0 || input_failures > 0 {

@@ -421,7 +421,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         .collect();
     let stream = catalog::Stream::create(&out, "catalog", catalog::COLUMNS)?;
     let (to_writer, from_workers) = std::sync::mpsc::channel::<Part>();
-    let (in_order, stream) = std::thread::scope(|scope| {
+    let ordered = std::thread::scope(|scope| {
         let (store, save_errors, position, config_sha) =
             (&store, &save_errors, &position, &config_sha);
         let (records, jobs, cancel) = (&records, &jobs, &*cancel);
@@ -446,7 +446,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             }
             // Every snapshot has a result unless the run was interrupted.
             if !cancel.load(Ordering::SeqCst) {
-                for (at, job) in jobs.iter().enumerate().skip(ordered.written.len()) {
+                for (at, job) in jobs.iter().enumerate().skip(ordered.statuses.len()) {
                     if ordered.waiting[at].is_none() {
                         let r = &records[job.source];
                         let part =
@@ -458,7 +458,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
                     }
                 }
             }
-            (ordered.written, ordered.stream)
+            ordered
         });
         let late_hashes = &late_hashes;
         // Workers take the runs in order from one counter, so that results arrive nearly in
@@ -533,33 +533,24 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         eprintln!("vortcat: stopped; {} holds the finished snapshots. Run the same command again to resume.", out.display());
         return Ok(ExitCode::from(EXIT_INTERRUPTED));
     }
+    let Ordered {
+        statuses,
+        stations,
+        tubes,
+        tally,
+        stream,
+        ..
+    } = ordered;
+    // The stream is gone only after a write error, reported above.
+    let Some(stream) = stream else {
+        bail!("internal: the catalog stream was closed early");
+    };
     anyhow::ensure!(
-        in_order.len() == jobs.len(),
+        statuses.len() == jobs.len(),
         "internal: {} of {} snapshots reached the catalog",
-        in_order.len(),
+        statuses.len(),
         jobs.len()
     );
-
-    // Assemble, in the stable order of inputs and indices.
-    let mut rows: Vec<CatalogRow> = Vec::new();
-    let mut stations = Vec::new();
-    let mut tubes = Vec::new();
-    let mut statuses = Vec::new();
-    for part in in_order {
-        let flagged = part.rows.iter().filter(|r| !r.flags.is_empty()).count();
-        statuses.push(SnapshotStatus {
-            snapshot: part.snapshot.clone(),
-            status: part.status.clone(),
-            error: part.error.clone(),
-            candidates: part.candidates,
-            vortices: part.rows.len(),
-            flagged,
-            timing: part.timing.clone(),
-        });
-        rows.extend(part.rows);
-        stations.extend(part.stations);
-        tubes.extend(part.tubes);
-    }
     let units = records
         .iter()
         .find(|r| r.error.is_none())
@@ -570,7 +561,6 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     // shards count each once.
     let reports_inputs = shard.is_none_or(|s| s.index == 0);
     let assembled = Assembled {
-        rows,
         stations,
         tubes,
         statuses,
@@ -588,9 +578,8 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         snapshot_set,
         reports_inputs,
     };
-    write_outputs(&out, &assembled, stream, &meta)?;
+    write_outputs(&out, &assembled, Catalog::Streamed(stream), &meta)?;
     let Assembled {
-        rows,
         tubes,
         statuses,
         records,
@@ -614,13 +603,13 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
             s.error.as_deref().unwrap_or("")
         );
     }
-    print!("{}", summary_table(&rows, &units));
+    print!("{}", summary_table(&tally, &units));
     println!(
         "{} snapshots ({}), {} vortices ({} flagged) -> {}",
         jobs.len(),
         failure_counts(failed_snapshots, input_failures.len()),
-        rows.len(),
-        rows.iter().filter(|r| !r.flags.is_empty()).count(),
+        tally.vortices,
+        tally.flagged,
         out.join("catalog.csv").display()
     );
     if plan.input.geometry == vortcat_field::Geometry::Volume {
@@ -641,9 +630,14 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     })
 }
 
-/// Everything a survey (or a merge of shards) writes.
+/// The catalog a survey or a merge writes: its rows, or the stream they were appended to.
+pub(crate) enum Catalog<'a> {
+    Rows(&'a [CatalogRow]),
+    Streamed(catalog::Stream),
+}
+
+/// Everything a survey (or a merge of shards) writes besides the catalog.
 pub(crate) struct Assembled {
-    pub rows: Vec<CatalogRow>,
     /// Tube stations and summaries (volume surveys), in snapshot, tube, station order.
     pub stations: Vec<volume::StationRow>,
     pub tubes: Vec<volume::TubeRow>,
@@ -700,18 +694,17 @@ fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
 
 /// Writes catalog.csv, catalog.jsonl, units.csv, summary.json and run.json; for volume
 /// surveys also stations.csv, tubes.csv, their JSON lines and units tables. A catalog
-/// `streamed` while the rows were computed (all of `a.rows`, in order) is finished here, in
-/// the same place of the sequence (run.json, which marks a finished run, comes last).
+/// streamed while the rows were computed is finished here, in the same place of the sequence
+/// (run.json, which marks a finished run, comes last).
 pub(crate) fn write_outputs(
     out: &Path,
     a: &Assembled,
-    streamed: Option<catalog::Stream>,
+    catalog: Catalog<'_>,
     meta: &RunMeta,
 ) -> anyhow::Result<()> {
-    let rows = &a.rows;
-    match streamed {
-        Some(stream) => stream.finish()?,
-        None => catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?,
+    match catalog {
+        Catalog::Streamed(stream) => stream.finish()?,
+        Catalog::Rows(rows) => catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?,
     }
     if a.config.input.geometry == vortcat_field::Geometry::Volume {
         volume::write_outputs(
@@ -739,8 +732,8 @@ pub(crate) fn write_outputs(
         "snapshots_done": a.statuses.len() - failed,
         "snapshots_failed": failed,
         "inputs_failed": input_failures,
-        "vortices": rows.len(),
-        "vortices_flagged": rows.iter().filter(|r| !r.flags.is_empty()).count(),
+        "vortices": a.statuses.iter().map(|s| s.vortices).sum::<usize>(),
+        "vortices_flagged": a.statuses.iter().map(|s| s.flagged).sum::<usize>(),
         "seconds": meta.seconds,
         "peak_rss_mib": peak_rss_mib(),
         "per_snapshot": a.statuses,
@@ -790,15 +783,8 @@ fn median(mut values: Vec<f64>) -> Option<f64> {
 }
 
 /// A short table per chosen model: count, flagged, medians of |Γ|, rc and γ.
-fn summary_table(rows: &[CatalogRow], units: &vortcat_field::Units) -> String {
-    let mut models: Vec<&str> = rows
-        .iter()
-        .map(|r| r.model.as_str())
-        .filter(|m| !m.is_empty())
-        .collect();
-    models.sort_unstable();
-    models.dedup();
-    if models.is_empty() {
+fn summary_table(tally: &Tally, units: &vortcat_field::Units) -> String {
+    if tally.models.is_empty() {
         return String::new();
     }
     let fmt = |x: Option<f64>| x.map_or_else(|| "-".to_string(), |v| format!("{v:.4e}"));
@@ -806,20 +792,15 @@ fn summary_table(rows: &[CatalogRow], units: &vortcat_field::Units) -> String {
         "{:<12} {:>7} {:>8} {:>14} {:>14} {:>14}\n",
         "model", "count", "flagged", "median |Γ|", "median rc", "median γ"
     );
-    for m in models {
-        let sel: Vec<&CatalogRow> = rows.iter().filter(|r| r.model == m).collect();
+    for (model, m) in &tally.models {
         out.push_str(&format!(
             "{:<12} {:>7} {:>8} {:>14} {:>14} {:>14}\n",
-            m,
-            sel.len(),
-            sel.iter().filter(|r| !r.flags.is_empty()).count(),
-            fmt(median(
-                sel.iter()
-                    .filter_map(|r| r.circulation.map(f64::abs))
-                    .collect()
-            )),
-            fmt(median(sel.iter().filter_map(|r| r.core_radius).collect())),
-            fmt(median(sel.iter().filter_map(|r| r.strain_rate).collect())),
+            model,
+            m.count,
+            m.flagged,
+            fmt(median(m.abs_circulation.clone())),
+            fmt(median(m.core_radius.clone())),
+            fmt(median(m.strain_rate.clone())),
         ));
     }
     out.push_str(&format!(
@@ -905,11 +886,17 @@ fn reads_from_bytes(path: &Path, spec: &vortcat_field::InputSpec) -> bool {
 
 /// The results of a survey in catalog order. Each result is appended to the catalog stream
 /// once all results before it are in; results that arrive ahead of their turn wait here.
+/// Of a result appended, only what the manifest and the closing summary need is kept.
 struct Ordered {
     /// Results not yet appended, by position in the job list.
     waiting: Vec<Option<(Part, Lines)>>,
-    /// Results appended, in order.
-    written: Vec<Part>,
+    /// The statuses of the results appended, in order.
+    statuses: Vec<SnapshotStatus>,
+    /// Their tube stations and summaries (volume surveys).
+    stations: Vec<volume::StationRow>,
+    tubes: Vec<volume::TubeRow>,
+    /// Their rows' figures for the summary table.
+    tally: Tally,
     stream: Option<catalog::Stream>,
     /// The first error writing the stream; from then on nothing more is appended, and the
     /// unfinished stream has removed its temporary files.
@@ -920,7 +907,10 @@ impl Ordered {
     /// Starts with the results of earlier runs (`None` where a snapshot is still to compute).
     fn new(earlier: Vec<Option<(Part, Lines)>>, stream: catalog::Stream) -> Self {
         let mut ordered = Self {
-            written: Vec::with_capacity(earlier.len()),
+            statuses: Vec::with_capacity(earlier.len()),
+            stations: Vec::new(),
+            tubes: Vec::new(),
+            tally: Tally::default(),
             waiting: earlier,
             stream: Some(stream),
             error: None,
@@ -936,7 +926,7 @@ impl Ordered {
     }
 
     fn advance(&mut self) {
-        while let Some(slot) = self.waiting.get_mut(self.written.len()) {
+        while let Some(slot) = self.waiting.get_mut(self.statuses.len()) {
             let Some((part, lines)) = slot.take() else {
                 break;
             };
@@ -946,7 +936,61 @@ impl Ordered {
                     self.stream = None;
                 }
             }
-            self.written.push(part);
+            self.tally.add(&part.rows);
+            self.statuses.push(SnapshotStatus {
+                snapshot: part.snapshot,
+                status: part.status,
+                error: part.error,
+                candidates: part.candidates,
+                vortices: part.rows.len(),
+                flagged: part.rows.iter().filter(|r| !r.flags.is_empty()).count(),
+                timing: part.timing,
+            });
+            self.stations.extend(part.stations);
+            self.tubes.extend(part.tubes);
+        }
+    }
+}
+
+/// Per-model figures of a catalog for the closing summary table, gathered snapshot by
+/// snapshot so that the rows themselves need not be kept (a survey's memory then does not
+/// grow with its catalog, bar three numbers a vortex).
+#[derive(Debug, Default)]
+struct Tally {
+    /// Rows, and rows with a flag.
+    vortices: usize,
+    flagged: usize,
+    /// By chosen model (rows without a model are counted above only).
+    models: std::collections::BTreeMap<String, ModelTally>,
+}
+
+#[derive(Debug, Default)]
+struct ModelTally {
+    count: usize,
+    flagged: usize,
+    abs_circulation: Vec<f64>,
+    core_radius: Vec<f64>,
+    strain_rate: Vec<f64>,
+}
+
+impl Tally {
+    fn add(&mut self, rows: &[CatalogRow]) {
+        for r in rows {
+            let flagged = !r.flags.is_empty();
+            self.vortices += 1;
+            self.flagged += usize::from(flagged);
+            if r.model.is_empty() {
+                continue;
+            }
+            let m = match self.models.get_mut(&r.model) {
+                Some(m) => m,
+                None => self.models.entry(r.model.clone()).or_default(),
+            };
+            m.count += 1;
+            m.flagged += usize::from(flagged);
+            m.abs_circulation.extend(r.circulation.map(f64::abs));
+            m.core_radius.extend(r.core_radius);
+            m.strain_rate.extend(r.strain_rate);
         }
     }
 }
@@ -1107,18 +1151,36 @@ mod tests {
         let streamed = tempfile::tempdir().unwrap();
         let stream = catalog::Stream::create(streamed.path(), "catalog", catalog::COLUMNS).unwrap();
         let mut ordered = Ordered::new(earlier, stream);
-        assert_eq!(ordered.written.len(), 1, "only the first result is in turn");
+        assert_eq!(
+            ordered.statuses.len(),
+            1,
+            "only the first result is in turn"
+        );
         for at in [4, 2, 5, 1] {
             ordered.arrive(at, parts[at].clone(), lines(&parts[at]));
             let expected = if at == 1 { 6 } else { 1 };
-            assert_eq!(ordered.written.len(), expected, "after {at}");
+            assert_eq!(ordered.statuses.len(), expected, "after {at}");
         }
         assert!(ordered.error.is_none());
-        let order: Vec<&str> = ordered.written.iter().map(|p| p.file.as_str()).collect();
+        let order: Vec<&str> = ordered
+            .statuses
+            .iter()
+            .map(|s| s.snapshot.as_str())
+            .collect();
         assert_eq!(
             order,
-            parts.iter().map(|p| p.file.as_str()).collect::<Vec<_>>()
+            parts
+                .iter()
+                .map(|p| p.snapshot.as_str())
+                .collect::<Vec<_>>()
         );
+        let counts: Vec<(usize, usize)> = ordered
+            .statuses
+            .iter()
+            .map(|s| (s.vortices, s.flagged))
+            .collect();
+        assert_eq!(counts, [(2, 1), (0, 0), (3, 1), (1, 0), (4, 2), (2, 1)]);
+        assert_eq!((ordered.tally.vortices, ordered.tally.flagged), (12, 5));
         ordered.stream.take().unwrap().finish().unwrap();
 
         let whole = tempfile::tempdir().unwrap();
@@ -1133,6 +1195,52 @@ mod tests {
             2,
             "no temporaries"
         );
+    }
+
+    #[test]
+    fn the_summary_table_is_tallied_per_model() {
+        let row =
+            |model: &str, circulation: f64, core_radius: Option<f64>, flags: &str| CatalogRow {
+                model: model.into(),
+                circulation: Some(circulation),
+                core_radius,
+                strain_rate: (model == "burgers").then_some(circulation.abs() / 10.0),
+                flags: flags.into(),
+                ..CatalogRow::default()
+            };
+        let mut tally = Tally::default();
+        // In two snapshots, as a survey adds them; one row without a model (a failed fit).
+        tally.add(&[
+            row("lamb-oseen", -2.0, Some(1.0), ""),
+            row("burgers", 5.0, Some(2.0), "edge"),
+        ]);
+        tally.add(&[
+            row("lamb-oseen", 6.0, Some(3.0), "noisy"),
+            row("lamb-oseen", 4.0, None, ""),
+            row("", 1.0, None, "fit-failed"),
+        ]);
+        assert_eq!((tally.vortices, tally.flagged), (5, 3));
+        let units = vortcat_field::Units {
+            length: "mm".into(),
+            velocity: "m/s".into(),
+        };
+        let table = summary_table(&tally, &units);
+        let lines: Vec<Vec<&str>> = table
+            .lines()
+            .map(|l| l.split_whitespace().collect())
+            .collect();
+        // Models in name order; medians of |Γ| (2, 4, 6 -> 4) and of the rc present (1, 3 -> 2).
+        assert_eq!(
+            lines[1],
+            ["burgers", "1", "1", "5.0000e0", "2.0000e0", "5.0000e-1"]
+        );
+        assert_eq!(
+            lines[2],
+            ["lamb-oseen", "3", "1", "4.0000e0", "2.0000e0", "-"]
+        );
+        assert_eq!(lines.len(), 4, "{table}");
+        assert!(lines[3].contains(&"(mm)*(m/s),"), "{table}");
+        assert_eq!(summary_table(&Tally::default(), &units), "");
     }
 
     #[test]
