@@ -72,6 +72,52 @@ fn merged_shards_equal_a_single_survey() {
         serde_json::from_str(&std::fs::read_to_string(sharded.join("run.json")).unwrap()).unwrap();
     assert_eq!(m["snapshots"].as_array().unwrap().len(), 7);
     assert_eq!(m["inputs"][0]["blake3"].as_str().unwrap().len(), 64);
+    let summary = |dir: &Path| -> serde_json::Value {
+        serde_json::from_str(&std::fs::read_to_string(dir.join("summary.json")).unwrap()).unwrap()
+    };
+    for key in ["vortices", "vortices_flagged", "snapshots_done"] {
+        assert_eq!(summary(&single)[key], summary(&sharded)[key], "{key}");
+    }
+}
+
+#[test]
+fn a_damaged_shard_catalog_is_named_and_no_half_catalog_is_left() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("data");
+    synth_small(&data, 4, &["--format", "hdf5"]);
+    let sharded = dir.path().join("sharded");
+    for k in 0..2 {
+        shard(&data, &sharded, k, 2, &[]);
+    }
+    // A line of the second shard's JSON lines cut short, as a bad copy could leave it.
+    let jsonl = sharded.join("shard-0001-of-0002").join("catalog.jsonl");
+    let text = std::fs::read_to_string(&jsonl).unwrap();
+    assert!(text.lines().count() >= 2, "the shard has rows to damage");
+    let mut lines: Vec<String> = text.lines().map(String::from).collect();
+    let half = lines[1].len() / 2;
+    lines[1].truncate(half);
+    std::fs::write(&jsonl, lines.join("\n") + "\n").unwrap();
+    let out = dir.path().join("merged");
+    let run = vortcat([
+        "merge",
+        sharded.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(run.code, 1, "{}", run.stderr);
+    assert!(
+        run.stderr
+            .contains("shard-0001-of-0002/catalog.jsonl line 2"),
+        "{}",
+        run.stderr
+    );
+    assert_eq!(run.stderr.trim().lines().count(), 1, "{}", run.stderr);
+    // The first shard's rows had been streamed: nothing of them may stay behind.
+    let left: Vec<_> = std::fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
+    assert!(left.is_empty(), "{left:?}");
 }
 
 #[test]

@@ -13,11 +13,9 @@ use clap::Args;
 use serde::Deserialize;
 
 use crate::config::Config;
-use crate::survey::catalog::CatalogRow;
+use crate::survey::catalog::{self, CatalogRow};
 use crate::survey::shard::Shard;
-use crate::survey::{
-    write_outputs, Assembled, Catalog, InputRecord, RunMeta, SnapshotStatus, EXIT_PARTIAL,
-};
+use crate::survey::{write_outputs, Assembled, InputRecord, RunMeta, SnapshotStatus, EXIT_PARTIAL};
 
 /// Arguments of `vortcat merge`.
 #[derive(Debug, Args)]
@@ -257,7 +255,10 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
     }
 
     // Stitch, in shard order: shards are contiguous blocks of the survey's snapshot order.
-    let mut rows: Vec<CatalogRow> = Vec::new();
+    // The catalog is streamed shard by shard, so that memory holds one shard's rows at a time.
+    std::fs::create_dir_all(&out).with_context(|| format!("{}: cannot create", out.display()))?;
+    let mut stream = catalog::Stream::create(&out, "catalog", catalog::COLUMNS)?;
+    let mut vortices = 0;
     let mut stations = Vec::new();
     let mut tubes = Vec::new();
     let mut statuses: Vec<SnapshotStatus> = Vec::new();
@@ -267,6 +268,7 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
         let m = s.manifest.as_ref().expect("complete");
         let text = std::fs::read_to_string(s.path.join("catalog.jsonl"))
             .with_context(|| format!("{}: cannot read catalog.jsonl", s.path.display()))?;
+        let mut rows: Vec<CatalogRow> = Vec::new();
         for (i, line) in text.lines().enumerate() {
             rows.push(
                 serde_json::from_str(line).map_err(|e| {
@@ -274,6 +276,8 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
                 })?,
             );
         }
+        stream.push(&catalog::Lines::of(&rows)?)?;
+        vortices += rows.len();
         stations.extend(crate::survey::volume::read_jsonl::<
             crate::survey::volume::StationRow,
         >(&s.path.join("stations.jsonl"))?);
@@ -307,7 +311,6 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
         .iter()
         .find_map(|s| read_units(&s.path.join("units.csv")))
         .unwrap_or_default();
-    std::fs::create_dir_all(&out).with_context(|| format!("{}: cannot create", out.display()))?;
     let failed = statuses.iter().filter(|s| s.status != "done").count();
     let input_failures = records.iter().filter(|r| r.error.is_some()).count();
     let assembled = Assembled {
@@ -331,12 +334,12 @@ pub fn run(args: MergeArgs) -> anyhow::Result<ExitCode> {
         ),
         reports_inputs: true,
     };
-    write_outputs(&out, &assembled, Catalog::Rows(&rows), &meta)?;
+    write_outputs(&out, &assembled, stream, &meta)?;
     println!(
         "merged {count} shards: {} snapshots ({}), {} vortices -> {}",
         assembled.statuses.len(),
         crate::survey::failure_counts(failed, input_failures),
-        rows.len(),
+        vortices,
         out.join("catalog.csv").display()
     );
     Ok(if failed > 0 || input_failures > 0 {

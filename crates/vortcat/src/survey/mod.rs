@@ -578,7 +578,7 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
         snapshot_set,
         reports_inputs,
     };
-    write_outputs(&out, &assembled, Catalog::Streamed(stream), &meta)?;
+    write_outputs(&out, &assembled, stream, &meta)?;
     let Assembled {
         tubes,
         statuses,
@@ -628,12 +628,6 @@ pub fn run(args: SurveyArgs) -> anyhow::Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     })
-}
-
-/// The catalog a survey or a merge writes: its rows, or the stream they were appended to.
-pub(crate) enum Catalog<'a> {
-    Rows(&'a [CatalogRow]),
-    Streamed(catalog::Stream),
 }
 
 /// Everything a survey (or a merge of shards) writes besides the catalog.
@@ -693,19 +687,16 @@ fn snapshot_set_hash(records: &[InputRecord]) -> (usize, String) {
 }
 
 /// Writes catalog.csv, catalog.jsonl, units.csv, summary.json and run.json; for volume
-/// surveys also stations.csv, tubes.csv, their JSON lines and units tables. A catalog
-/// streamed while the rows were computed is finished here, in the same place of the sequence
-/// (run.json, which marks a finished run, comes last).
+/// surveys also stations.csv, tubes.csv, their JSON lines and units tables. The catalog,
+/// streamed while its rows were computed (or stitched), is finished here, first: run.json,
+/// which marks a finished run, comes last.
 pub(crate) fn write_outputs(
     out: &Path,
     a: &Assembled,
-    catalog: Catalog<'_>,
+    catalog: catalog::Stream,
     meta: &RunMeta,
 ) -> anyhow::Result<()> {
-    match catalog {
-        Catalog::Streamed(stream) => stream.finish()?,
-        Catalog::Rows(rows) => catalog::write_table(out, "catalog", catalog::COLUMNS, rows)?,
-    }
+    catalog.finish()?;
     if a.config.input.geometry == vortcat_field::Geometry::Volume {
         volume::write_outputs(
             out,
