@@ -558,7 +558,11 @@ fn run<M: VortexModel>(
         rms_residual: (rss / m as f64).sqrt(),
         noise_sigma: sigma2.sqrt() * vel,
         r_squared,
-        condition_number: condition_number(&ne.a, n),
+        condition_number: if settings.compute_condition_number {
+            condition_number(&ne.a, n)
+        } else {
+            f64::NAN
+        },
         derived,
     })
 }

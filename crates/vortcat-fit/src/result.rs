@@ -152,7 +152,8 @@ pub struct FitResult {
     /// R² = 1 − RSS/TSS of both velocity components (NaN if TSS = 0).
     #[serde(deserialize_with = "crate::serde_nan::f64")]
     pub r_squared: f64,
-    /// Condition number of `JᵀJ` after scaling to unit diagonal (scale-free; ∞ if singular).
+    /// Condition number of `JᵀJ` after scaling to unit diagonal (scale-free; ∞ if singular;
+    /// NaN if not computed, see [`FitSettings::compute_condition_number`](crate::FitSettings)).
     #[serde(deserialize_with = "crate::serde_nan::f64")]
     pub condition_number: f64,
     /// Derived quantities.

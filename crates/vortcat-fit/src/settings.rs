@@ -74,6 +74,15 @@ pub struct FitSettings {
     pub min_vectors: usize,
     /// Flag thresholds.
     pub thresholds: FlagThresholds,
+    /// Compute [`FitResult::condition_number`](crate::FitResult::condition_number) (default
+    /// true). It is a diagnostic only — no flag, status or error depends on it — and costs an
+    /// eigen-decomposition per fit (about 2–3 % of a survey's time); when false the field is NaN.
+    #[serde(default = "yes")]
+    pub compute_condition_number: bool,
+}
+
+fn yes() -> bool {
+    true
 }
 
 impl Default for FitSettings {
@@ -91,6 +100,7 @@ impl Default for FitSettings {
             criterion: InformationCriterion::Bic,
             min_vectors: 10,
             thresholds: FlagThresholds::default(),
+            compute_condition_number: true,
         }
     }
 }
@@ -236,6 +246,11 @@ impl FitSettingsBuilder {
     /// See [`FitSettings::thresholds`].
     pub fn thresholds(mut self, v: FlagThresholds) -> Self {
         self.s.thresholds = v;
+        self
+    }
+    /// See [`FitSettings::compute_condition_number`].
+    pub fn compute_condition_number(mut self, v: bool) -> Self {
+        self.s.compute_condition_number = v;
         self
     }
     /// Validate and return the settings.

@@ -361,3 +361,42 @@ fn derived_quantities() {
     assert_relative_eq!(d.viscosity_ratio.unwrap(), 1.0, max_relative = 1e-7);
     assert_relative_eq!(d.effective_viscosity.unwrap(), nu, max_relative = 1e-7);
 }
+
+/// Skipping the condition number changes nothing else of a fit: it is a diagnostic only.
+#[test]
+fn skipping_the_condition_number_changes_only_that_field() {
+    let with = FitSettings::default();
+    let without = FitSettings::builder()
+        .compute_condition_number(false)
+        .build()
+        .unwrap();
+    for model in [Model::LambOseen(LambOseen), Model::Burgers(Burgers::free())] {
+        let (a, b) = match &model {
+            Model::Burgers(m) => (
+                clean_fit(m, vec![1.0, 0.4, 0.8], &with),
+                clean_fit(m, vec![1.0, 0.4, 0.8], &without),
+            ),
+            Model::LambOseen(m) => (
+                clean_fit(m, vec![1.0, 0.4], &with),
+                clean_fit(m, vec![1.0, 0.4], &without),
+            ),
+            _ => unreachable!(),
+        };
+        // Scaled to unit diagonal, a well-posed fit of a few parameters is conditioned far
+        // from 1/ε; at least 1 by definition.
+        assert!(
+            a.condition_number >= 1.0 && a.condition_number < 1e8,
+            "{}",
+            a.condition_number
+        );
+        assert!(b.condition_number.is_nan());
+        let mut b = b;
+        b.condition_number = a.condition_number;
+        // Every other field bit for bit (the JSON of f64 round-trips exactly).
+        assert_eq!(
+            serde_json::to_string(&a).unwrap(),
+            serde_json::to_string(&b).unwrap(),
+            "{model:?}"
+        );
+    }
+}

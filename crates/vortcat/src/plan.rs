@@ -236,6 +236,8 @@ impl Plan {
             .criterion(criterion)
             .min_vectors(f.min_vectors)
             .thresholds(thresholds)
+            // Nothing vortcat writes uses it (no catalog column or flag).
+            .compute_condition_number(false)
             .build()
             .map_err(|e| anyhow!("[fit]: {e}"))?;
         if f.models.is_empty() {
